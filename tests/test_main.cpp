@@ -1,0 +1,3 @@
+// The shared doctest entry point for every test binary.
+#define DOCTEST_CONFIG_IMPLEMENT_WITH_MAIN
+#include <doctest/doctest.h>
