@@ -1,0 +1,345 @@
+// ReadRadiograph: load a DICOM file with DCMTK, validate what the pixel pipeline relies on,
+// decode the first frame (DCMTK codecs, or OpenJPEG for JPEG 2000) and normalise it to the
+// Image convention "larger value = more radiation" (docs/dicom.md).
+#include <algorithm>
+#include <cmath>
+#include <fstream>
+#include <memory>
+#include <set>
+
+#include <dcmtk/dcmdata/dcpixel.h>
+#include <dcmtk/dcmdata/dcpixseq.h>
+#include <dcmtk/dcmdata/dcpxitem.h>
+
+#include "dicom/dicom_internal.h"
+
+namespace beamtrim {
+namespace fs = std::filesystem;
+using namespace dicom_internal;
+
+namespace {
+
+// Values longer than this stay on disk while parsing; pixel data is read on demand, so a
+// lying length field cannot make DCMTK allocate it during loadFile.
+constexpr Uint32 kMaxReadLength = 64 * 1024;
+
+struct Context {
+  std::string file;
+  int64_t file_size = 0;
+  ReadOptions options;
+};
+
+Error Fail(const Context& c, ErrorKind kind, const DcmTagKey& key, std::string reason) {
+  return MakeError(kind, c.file, std::move(reason), TagLabel(key));
+}
+
+const std::set<std::string>& SupportedSyntaxes() {
+  // PS3.6 Annex A UIDs of the syntaxes in docs/dicom.md.
+  static const std::set<std::string> kUids = {
+      "1.2.840.10008.1.2",      "1.2.840.10008.1.2.1",    "1.2.840.10008.1.2.2",
+      "1.2.840.10008.1.2.1.99", "1.2.840.10008.1.2.5",    "1.2.840.10008.1.2.4.50",
+      "1.2.840.10008.1.2.4.51", "1.2.840.10008.1.2.4.57", "1.2.840.10008.1.2.4.70",
+      "1.2.840.10008.1.2.4.80", "1.2.840.10008.1.2.4.81", "1.2.840.10008.1.2.4.90",
+      "1.2.840.10008.1.2.4.91"};
+  return kUids;
+}
+
+bool IsJpeg2000(const std::string& uid) {
+  return uid == "1.2.840.10008.1.2.4.90" || uid == "1.2.840.10008.1.2.4.91";
+}
+
+// Opens the file with DCMTK. Header-only reads stop before Pixel Data.
+Result<std::unique_ptr<DcmFileFormat>> Load(const Context& c) {
+  auto ff = std::make_unique<DcmFileFormat>();
+  OFCondition cond =
+      c.options.header_only
+          ? ff->loadFileUntilTag(c.file.c_str(), EXS_Unknown, EGL_noChange, kMaxReadLength,
+                                 ERM_autoDetect, DCM_PixelData)
+          : ff->loadFile(c.file.c_str(), EXS_Unknown, EGL_noChange, kMaxReadLength,
+                         ERM_autoDetect);
+  std::string meta_uid = GetString(*ff->getMetaInfo(), DCM_TransferSyntaxUID);
+  if (!meta_uid.empty() && SupportedSyntaxes().count(meta_uid) == 0) {
+    DcmXfer xfer(meta_uid.c_str());
+    std::string name = xfer.getXfer() == EXS_Unknown ? "unknown" : xfer.getXferName();
+    return Fail(c, ErrorKind::kUnsupported, DCM_TransferSyntaxUID,
+                "transfer syntax " + meta_uid + " (" + name + ") is not supported");
+  }
+  if (cond.bad()) {
+    return MakeError(ErrorKind::kMalformed, c.file,
+                std::string("DICOM structure unreadable (truncated or corrupt): ") + cond.text());
+  }
+  return ff;
+}
+
+Status CheckKind(const Context& c, const RadiographHeader& h, std::vector<std::string>& notes) {
+  // Projection radiography only: DX, CR and RG (PS3.3 C.7.3.1.1.1 defined terms).
+  static const std::set<std::string> kAccepted = {"DX", "CR", "RG"};
+  if (h.modality.empty()) {
+    notes.push_back("modality missing: treated as a projection radiograph");
+  } else if (kAccepted.count(h.modality) == 0) {
+    return Fail(c, ErrorKind::kUnsupported, DCM_Modality,
+                "modality " + h.modality + " is not a projection radiograph (DX, CR, RG)");
+  }
+  if (h.samples_per_pixel != 1) {
+    return Fail(c, ErrorKind::kUnsupported, DCM_SamplesPerPixel,
+                "colour image (" + std::to_string(h.samples_per_pixel) + " samples per pixel)");
+  }
+  if (h.photometric_interpretation != "MONOCHROME1" &&
+      h.photometric_interpretation != "MONOCHROME2") {
+    return Fail(c, ErrorKind::kUnsupported, DCM_PhotometricInterpretation,
+                "photometric interpretation '" + h.photometric_interpretation +
+                    "' is not MONOCHROME1 or MONOCHROME2");
+  }
+  return Status::Ok();
+}
+
+Status CheckGeometry(const Context& c, const RadiographHeader& h) {
+  if (h.rows <= 0) return Fail(c, ErrorKind::kMalformed, DCM_Rows, "zero or missing");
+  if (h.columns <= 0) return Fail(c, ErrorKind::kMalformed, DCM_Columns, "zero or missing");
+  int64_t pixels = static_cast<int64_t>(h.rows) * h.columns;
+  if (pixels > c.options.max_pixels) {
+    return Fail(c, ErrorKind::kMalformed, DCM_Rows,
+                std::to_string(h.rows) + " x " + std::to_string(h.columns) +
+                    " pixels declared, above the limit of " +
+                    std::to_string(c.options.max_pixels));
+  }
+  // PS3.5 8.1.1 and PS3.3 C.7.6.3.1: 0 < Bits Stored <= Bits Allocated,
+  // High Bit = Bits Stored - 1 .. Bits Allocated - 1 (8, 16, 32 supported here).
+  if (h.bits_allocated != 8 && h.bits_allocated != 16 && h.bits_allocated != 32) {
+    return Fail(c, ErrorKind::kUnsupported, DCM_BitsAllocated,
+                std::to_string(h.bits_allocated) + " bits allocated (8, 16 or 32 supported)");
+  }
+  if (h.bits_stored < 1 || h.bits_stored > h.bits_allocated) {
+    return Fail(c, ErrorKind::kMalformed, DCM_BitsStored,
+                std::to_string(h.bits_stored) + " is outside 1.." + std::to_string(h.bits_allocated));
+  }
+  if (h.high_bit < h.bits_stored - 1 || h.high_bit >= h.bits_allocated) {
+    return Fail(c, ErrorKind::kMalformed, DCM_HighBit,
+                std::to_string(h.high_bit) + " does not fit Bits Stored " +
+                    std::to_string(h.bits_stored) + " in Bits Allocated " +
+                    std::to_string(h.bits_allocated));
+  }
+  if (h.number_of_frames < 1) {
+    return Fail(c, ErrorKind::kMalformed, DCM_NumberOfFrames, "zero or negative");
+  }
+  if (!(h.rescale_slope != 0.0 && std::isfinite(h.rescale_slope))) {
+    return Fail(c, ErrorKind::kMalformed, DCM_RescaleSlope, "zero or not a number");
+  }
+  return Status::Ok();
+}
+
+// Stored values of the first frame, one int per pixel, as Pixel Representation says.
+using Stored = std::vector<int32_t>;
+
+Stored UnpackNative(const std::vector<uint8_t>& buf, const RadiographHeader& h) {
+  size_t n = static_cast<size_t>(h.rows) * h.columns;
+  Stored out(n);
+  int shift = h.high_bit + 1 - h.bits_stored;  // PS3.5 8.1.1: bits sit below High Bit
+  uint32_t mask = h.bits_stored >= 32 ? 0xFFFFFFFFu : ((1u << h.bits_stored) - 1u);
+  uint32_t sign = 1u << (h.bits_stored - 1);
+  for (size_t i = 0; i < n; ++i) {
+    uint32_t raw;
+    if (h.bits_allocated == 8) raw = buf[i];
+    else if (h.bits_allocated == 16) raw = reinterpret_cast<const Uint16*>(buf.data())[i];
+    else raw = reinterpret_cast<const Uint32*>(buf.data())[i];
+    raw = (raw >> shift) & mask;
+    if (h.pixel_representation == 1 && (raw & sign) != 0) {
+      out[i] = static_cast<int32_t>(static_cast<int64_t>(raw) - (int64_t{1} << h.bits_stored));
+    } else {
+      out[i] = static_cast<int32_t>(raw);
+    }
+  }
+  return out;
+}
+
+Status CheckNativeLength(const Context& c, DcmElement& pixel, const RadiographHeader& h) {
+  // PS3.5 8.1.1: native pixel data holds Rows x Columns x Samples x Bits Allocated / 8 per
+  // frame; the value cannot be larger than the file it lives in.
+  uint64_t frame = static_cast<uint64_t>(h.rows) * h.columns * (h.bits_allocated / 8);
+  uint64_t need = frame * static_cast<uint64_t>(h.number_of_frames);
+  uint64_t have = pixel.getLength();
+  if (have < need || have > static_cast<uint64_t>(c.file_size)) {
+    return Fail(c, ErrorKind::kMalformed, DCM_PixelData,
+                "holds " + std::to_string(have) + " bytes, but rows x columns x bits allocated x "
+                "frames needs " + std::to_string(need) + " and the file has " +
+                std::to_string(c.file_size));
+  }
+  return Status::Ok();
+}
+
+Result<Stored> DecodeWithDcmtk(const Context& c, DcmDataset& ds, DcmElement& pixel,
+                               const RadiographHeader& h, bool encapsulated) {
+  if (!encapsulated) {
+    Status s = CheckNativeLength(c, pixel, h);
+    if (!s) return s.error();
+  }
+  uint64_t frame = static_cast<uint64_t>(h.rows) * h.columns * (h.bits_allocated / 8);
+  std::vector<uint8_t> buf(frame + 1);  // DCMTK wants room for a pad byte
+  Uint32 start = 0;
+  OFString colour;
+  OFCondition cond = pixel.getUncompressedFrame(&ds, 0, start, buf.data(),
+                                                static_cast<Uint32>(buf.size()), colour);
+  if (cond.bad()) {
+    return Fail(c, ErrorKind::kMalformed, DCM_PixelData,
+                std::string("first frame could not be decoded: ") + cond.text());
+  }
+  return UnpackNative(buf, h);
+}
+
+// Fragments of frame 1 in an encapsulated sequence (PS3.5 A.4): item 0 is the Basic Offset
+// Table; with several frames and no table, one fragment per frame is the common case, and
+// otherwise fragments are taken up to the one ending with the EOC marker FFD9.
+Result<std::vector<uint8_t>> FirstFrameBytes(const Context& c, DcmPixelSequence& seq,
+                                             const RadiographHeader& h) {
+  unsigned long count = seq.card();
+  if (count < 2) return Fail(c, ErrorKind::kMalformed, DCM_PixelData, "encapsulated pixel data has no fragments");
+  std::vector<uint8_t> bytes;
+  bool one_per_frame = h.number_of_frames > 1 && count - 1 == static_cast<unsigned long>(h.number_of_frames);
+  for (unsigned long i = 1; i < count; ++i) {
+    DcmPixelItem* item = nullptr;
+    Uint8* data = nullptr;
+    if (seq.getItem(item, i).bad() || item->getUint8Array(data).bad()) {
+      return Fail(c, ErrorKind::kMalformed, DCM_PixelData, "fragment " + std::to_string(i) + " unreadable");
+    }
+    Uint32 len = item->getLength();
+    if (data != nullptr) bytes.insert(bytes.end(), data, data + len);
+    if (h.number_of_frames == 1) continue;
+    if (one_per_frame) break;
+    size_t n = bytes.size();
+    bool eoc = (n >= 2 && bytes[n - 2] == 0xFF && bytes[n - 1] == 0xD9) ||
+               (n >= 3 && bytes[n - 3] == 0xFF && bytes[n - 2] == 0xD9 && bytes[n - 1] == 0);
+    if (eoc) break;
+  }
+  return bytes;
+}
+
+Result<Stored> DecodeJpeg2000(const Context& c, DcmElement& pixel, const RadiographHeader& h,
+                              std::vector<std::string>& notes) {
+  auto& pd = static_cast<DcmPixelData&>(pixel);
+  E_TransferSyntax xfer = EXS_Unknown;
+  const DcmRepresentationParameter* param = nullptr;
+  pd.getOriginalRepresentationKey(xfer, param);
+  DcmPixelSequence* seq = nullptr;
+  if (pd.getEncapsulatedRepresentation(xfer, param, seq).bad() || seq == nullptr) {
+    return Fail(c, ErrorKind::kMalformed, DCM_PixelData, "JPEG 2000 pixel data is not encapsulated");
+  }
+  Result<std::vector<uint8_t>> bytes = FirstFrameBytes(c, *seq, h);
+  if (!bytes) return bytes.error();
+  Result<J2kImage> img = DecodeJ2k(bytes->data(), bytes->size(), c.options.max_pixels);
+  if (!img) return Fail(c, ErrorKind::kMalformed, DCM_PixelData, img.error().reason);
+  if (img->width != h.columns || img->height != h.rows) {
+    return Fail(c, ErrorKind::kMalformed, DCM_PixelData,
+                "JPEG 2000 codestream is " + std::to_string(img->width) + " x " +
+                    std::to_string(img->height) + " but Columns x Rows declare " +
+                    std::to_string(h.columns) + " x " + std::to_string(h.rows));
+  }
+  if (img->components != 1) {
+    return Fail(c, ErrorKind::kUnsupported, DCM_SamplesPerPixel,
+                "JPEG 2000 codestream has " + std::to_string(img->components) + " components");
+  }
+  if (img->precision > h.bits_allocated) {
+    return Fail(c, ErrorKind::kMalformed, DCM_BitsAllocated,
+                "JPEG 2000 precision " + std::to_string(img->precision) + " exceeds Bits Allocated");
+  }
+  if (img->precision != h.bits_stored || img->is_signed != (h.pixel_representation == 1)) {
+    notes.push_back("JPEG 2000 precision/sign (" + std::to_string(img->precision) +
+                    (img->is_signed ? " signed" : " unsigned") + ") differs from the header; codestream values used");
+  }
+  return std::move(img->values);
+}
+
+void Normalise(const Stored& s, const RadiographHeader& h, Image& out) {
+  // Modality value m = slope * stored + intercept (PS3.3 C.11.1.1.2). MONOCHROME1 shows
+  // low values bright (PS3.3 C.7.6.3.1.2), i.e. more radiation = lower value, so invert
+  // within the representable modality range: out = m_max - m >= 0 (docs/dicom.md).
+  out = Image(h.columns, h.rows);
+  double lo = h.pixel_representation == 1 ? -std::ldexp(1.0, h.bits_stored - 1) : 0.0;
+  double hi = h.pixel_representation == 1 ? std::ldexp(1.0, h.bits_stored - 1) - 1.0
+                                          : std::ldexp(1.0, h.bits_stored) - 1.0;
+  double m_max = std::max(h.rescale_slope * lo, h.rescale_slope * hi) + h.rescale_intercept;
+  bool invert = h.photometric_interpretation == "MONOCHROME1";
+  float* px = out.data();
+  for (size_t i = 0; i < s.size(); ++i) {
+    double m = h.rescale_slope * s[i] + h.rescale_intercept;
+    px[i] = static_cast<float>(invert ? std::max(0.0, m_max - m) : m);
+  }
+}
+
+bool IsLinear(const RadiographHeader& h) {
+  // See docs/dicom.md "Linearity": LIN declared, or FOR PROCESSING without another
+  // declared relationship; MONOCHROME1 or a negative sign means an inverted scale whose
+  // zero point is unknown, so the values are not proportional to exposure.
+  if (h.photometric_interpretation != "MONOCHROME2") return false;
+  if (h.pixel_intensity_relationship_sign < 0) return false;
+  if (h.pixel_intensity_relationship == "LIN") return true;
+  return h.pixel_intensity_relationship.empty() && h.presentation_intent_type == "FOR PROCESSING";
+}
+
+Status DecodePixels(const Context& c, DcmDataset& ds, Radiograph& r) {
+  const RadiographHeader& h = r.header;
+  DcmElement* pixel = nullptr;
+  if (ds.findAndGetElement(DCM_PixelData, pixel).bad() || pixel == nullptr) {
+    return Fail(c, ErrorKind::kMalformed, DCM_PixelData, "no pixel data in the data set");
+  }
+  DcmXfer xfer(ds.getOriginalXfer());
+  Result<Stored> stored = IsJpeg2000(h.transfer_syntax_uid)
+                              ? DecodeJpeg2000(c, *pixel, h, r.notes)
+                              : DecodeWithDcmtk(c, ds, *pixel, h, xfer.isEncapsulated());
+  if (!stored) return stored.error();
+  Normalise(*stored, h, r.pixels);
+  return Status::Ok();
+}
+
+Result<Radiograph> ReadChecked(const Context& c) {
+  Result<std::unique_ptr<DcmFileFormat>> ff = Load(c);
+  if (!ff) return ff.error();
+  DcmDataset& ds = *(*ff)->getDataset();
+  Radiograph r;
+  r.file = c.file;
+  r.header = ExtractHeader(ds);
+  std::string meta_uid = GetString(*(*ff)->getMetaInfo(), DCM_TransferSyntaxUID);
+  r.header.transfer_syntax_uid = meta_uid.empty() ? DcmXfer(ds.getOriginalXfer()).getXferID() : meta_uid;
+  if (r.header.rows == 0 && r.header.columns == 0 && r.header.modality.empty() &&
+      r.header.sop_class_uid.empty()) {
+    return MakeError(ErrorKind::kNotDicom, c.file, "no DICOM image attributes found");
+  }
+  if (Status s = CheckKind(c, r.header, r.notes); !s) return s.error();
+  if (Status s = CheckGeometry(c, r.header); !s) return s.error();
+  r.linear = IsLinear(r.header);
+  if (c.options.header_only) return r;
+  if (Status s = DecodePixels(c, ds, r); !s) return s.error();
+  if (r.header.number_of_frames > 1) {
+    r.notes.push_back("multi-frame: first of " + std::to_string(r.header.number_of_frames) +
+                      " frames analysed");
+  }
+  return r;
+}
+
+}  // namespace
+
+Result<Radiograph> ReadRadiograph(const fs::path& file, const ReadOptions& options) {
+  RegisterDicomCodecs();
+  Context c{file.string(), 0, options};
+  std::error_code ec;
+  fs::file_status st = fs::status(file, ec);
+  if (ec || !fs::exists(st)) return MakeError(ErrorKind::kNotFound, c.file, "file not found");
+  if (!fs::is_regular_file(st)) return MakeError(ErrorKind::kUnreadable, c.file, "not a regular file");
+  c.file_size = static_cast<int64_t>(fs::file_size(file, ec));
+  if (ec) return MakeError(ErrorKind::kUnreadable, c.file, ec.message());
+  if (!std::ifstream(file, std::ios::binary)) {
+    return MakeError(ErrorKind::kUnreadable, c.file, "cannot open for reading");
+  }
+  if (!LooksLikeDicom(file)) {
+    return MakeError(ErrorKind::kNotDicom, c.file,
+                     "no 'DICM' marker at byte 128 and no data set start at byte 0");
+  }
+  try {
+    return ReadChecked(c);
+  } catch (const std::bad_alloc&) {
+    return MakeError(ErrorKind::kMalformed, c.file, "declared sizes need more memory than available");
+  } catch (const std::exception& e) {
+    return MakeError(ErrorKind::kInternal, c.file, e.what());
+  }
+}
+
+}  // namespace beamtrim
