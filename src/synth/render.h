@@ -1,0 +1,36 @@
+// Rendering internals of the synthetic radiographs (see render.cpp). Thread-safe functions.
+#pragma once
+
+#include <random>
+
+#include "beamtrim/image.h"
+#include "beamtrim/synth.h"
+#include "synth/phantom.h"
+
+namespace beamtrim::synth_internal {
+
+struct ExposureMaps {
+  Image primary;  // uGy at the detector, receptor grid
+  Image scatter;  // uGy
+  Image tissue;   // patient thickness along the ray, mm (for exposure index and windowing)
+};
+
+// Shadow of one blade edge: transmission at `inside_mm` (signed distance from the geometric
+// edge, positive inside the field) for a uniform focal spot whose projected width is
+// `penumbra_mm`, averaged over a detector aperture of `aperture_mm` (0 = point sample).
+double EdgeTransmission(double inside_mm, double penumbra_mm, double aperture_mm);
+
+// Collimator transmission at a detector point (mm), with leakage and off-focus radiation.
+double CollimatorTransmission(const SynthScenario& sc, double x, double y);
+
+// Relative free-in-air output at a detector point (mm): inverse square, obliquity, heel.
+double BeamShape(const SynthScenario& sc, double x, double y);
+
+ExposureMaps RenderExposure(const SynthScenario& sc, const SceneObjects& scene, int width,
+                            int height);
+void AddScatter(const SynthScenario& sc, const SceneObjects& scene, ExposureMaps& maps);
+
+// Detector blur, residual gain pattern, quantum (Poisson) noise, in place on kerma (uGy).
+void ApplyDetector(const SynthScenario& sc, Image& kerma, std::mt19937_64& rng);
+
+}  // namespace beamtrim::synth_internal
