@@ -1,0 +1,81 @@
+// Thin RAII wrappers over the SQLite C API for the store layer: a connection and a prepared
+// statement. SQLite result codes become beamtrim Errors (kind kStore) naming the store file.
+// Not thread-safe by themselves: the Store serialises access with its own lock.
+#pragma once
+
+#include <cstdint>
+#include <optional>
+#include <string>
+
+#include <sqlite3.h>
+
+#include "beamtrim/status.h"
+
+namespace beamtrim::store_internal {
+
+// Plain-language reason for an SQLite failure; SQLITE_FULL gets a disk-full explanation.
+std::string SqliteReason(sqlite3* db, int code);
+
+class Statement {
+ public:
+  Statement() = default;
+  Statement(sqlite3* db, sqlite3_stmt* stmt) : db_(db), stmt_(stmt) {}
+  Statement(Statement&& other) noexcept { *this = std::move(other); }
+  Statement& operator=(Statement&& other) noexcept;
+  ~Statement();
+
+  // Binding; index is 1-based as in SQLite.
+  Statement& Bind(int index, const std::string& text);
+  Statement& Bind(int index, int64_t value);
+  Statement& Bind(int index, std::optional<double> value);  // NULL when empty
+  Statement& BindNull(int index);
+
+  // Returns SQLITE_ROW, SQLITE_DONE or an error code.
+  int Step();
+  void Reset();
+
+  std::string Text(int column) const;
+  int64_t Int(int column) const;
+  std::optional<double> Real(int column) const;
+  bool IsNull(int column) const;
+
+ private:
+  sqlite3* db_ = nullptr;
+  sqlite3_stmt* stmt_ = nullptr;
+};
+
+class Database {
+ public:
+  Database() = default;
+  ~Database();
+  Database(const Database&) = delete;
+  Database& operator=(const Database&) = delete;
+
+  Status Open(const std::string& file, int flags);
+  sqlite3* handle() const { return db_; }
+  const std::string& file() const { return file_; }
+
+  // Runs one or more statements without results.
+  Status Exec(const std::string& sql);
+  Result<Statement> Prepare(const std::string& sql);
+  Error MakeStoreError(int code, const std::string& what) const;
+
+ private:
+  sqlite3* db_ = nullptr;
+  std::string file_;
+};
+
+// Commits on Commit(); rolls back when destroyed otherwise.
+class Transaction {
+ public:
+  explicit Transaction(Database& db) : db_(db) {}
+  ~Transaction();
+  Status Begin();
+  Status Commit();
+
+ private:
+  Database& db_;
+  bool open_ = false;
+};
+
+}  // namespace beamtrim::store_internal
