@@ -74,4 +74,71 @@ struct Verdict {
   std::vector<std::string> reasons;  // plain words
 };
 
+class RuleSet;  // rules.h
+struct Rule;
+struct ImageRecord;  // record.h
+
+// ---- The per-image step of the pipeline -----------------------------------------------------
+
+// Fills record->anatomy, excess, receptor, declared, dose and verdict from the pixels, the
+// detected field, the header and the rules. Reads record->pixel_spacing_mm and
+// record->context (filled by FillRecordContext) and falls back to the header when empty.
+void ComputeMetrics(const Radiograph& radiograph, const FieldMeasurement& field,
+                    const RuleSet& rules, ImageRecord* record);
+
+// ---- Building blocks (each pure and thread-safe) --------------------------------------------
+
+// Excess exposed area: field area outside the anatomy box (and outside the box grown by
+// `margin_mm`), per side how far each visible blade could have moved in. Without a spacing
+// only the fractions are given; without a magnification no patient-plane values.
+ExcessMeasurement ComputeExcess(const FieldMeasurement& field, const AnatomyMeasurement& anatomy,
+                                const std::optional<std::array<double, 2>>& spacing_mm,
+                                std::optional<double> magnification, double margin_mm);
+
+// Field against the receptor and the image (21 CFR 1020.31 checks where the geometry allows).
+ReceptorMeasurement ComputeReceptor(const FieldMeasurement& field, int rows, int columns,
+                                    const std::optional<std::array<double, 2>>& spacing_mm,
+                                    const std::optional<std::array<double, 2>>& active_mm,
+                                    std::optional<double> sid_mm);
+
+// Declared collimator edges (else display shutters) against the detected blade edges.
+// Edge numbers are 1-based pixel columns / rows; the edge is taken at the centre of that
+// pixel. Empty when nothing is declared.
+std::optional<DeclaredComparison> CompareDeclared(
+    const FieldMeasurement& field, const RadiographHeader& header,
+    const std::optional<std::array<double, 2>>& spacing_mm, std::optional<double> sid_mm);
+
+// KAP, avoidable KAP (KAP x excess fraction, uniform field), EI, EI_T and DI.
+DoseMeasurement ComputeDose(const RadiographHeader& header, std::optional<double> excess_fraction);
+
+// The verdict for one measured record under one rule.
+Verdict Decide(const ImageRecord& record, const Rule& rule);
+
+// ---- Published formulas and limits -----------------------------------------------------------
+
+// IEC 62494-1:2008: DI = 10 log10(EI / EI_T). Both must be > 0.
+double DeviationIndex(double exposure_index, double target_exposure_index);
+
+// AAPM TG-116 (Shepard et al. 2009) ranges, in plain words.
+std::string DeviationIndexRange(double deviation_index);
+
+// 21 CFR 1020.31 positive beam limitation: neither the length nor the width of the x-ray field
+// may differ from the receptor's by more than 3 % of SID; the sum of the two differences,
+// without regard to sign, at most 4 % of SID.
+struct PblCheck {
+  double length_difference_mm = 0.0;  // |field length - receptor length|
+  double width_difference_mm = 0.0;
+  double sum_pct_sid = 0.0;
+  bool within_limits = false;
+};
+PblCheck CheckPositiveBeamLimitation(double field_length_mm, double field_width_mm,
+                                     double receptor_length_mm, double receptor_width_mm,
+                                     double sid_mm);
+
+// 21 CFR 1020.31: edge misalignment or centre offset within 2 % of SID.
+bool WithinTwoPercentOfSid(double deviation_mm, double sid_mm);
+
+// Detector-plane length to the patient plane: w / M, M = SID / source-to-patient distance.
+double ToPatientPlane(double detector_mm, double magnification);
+
 }  // namespace beamtrim

@@ -1,0 +1,214 @@
+// Anatomy box along the field axes, convex hull, full-resolution refinement of the box sides,
+// and the blade edges the anatomy runs into (docs/metrics.md, "Anatomy").
+#include "beamtrim/anatomy.h"
+
+#include <algorithm>
+#include <cmath>
+
+#include <opencv2/imgproc.hpp>
+
+#include "analysis/anatomy_internal.h"
+#include "analysis/metrics_internal.h"
+
+namespace beamtrim {
+namespace {
+
+using anatomy_internal::Segmentation;
+using anatomy_internal::Working;
+using metrics_internal::BoxExtents;
+using metrics_internal::FieldFrame;
+
+constexpr double kNominalPixelMm = 0.15;  // when the header gives no spacing
+
+// Corners of the anatomy's boundary pixels, in full-resolution pixel coordinates.
+std::vector<Point2d> BoundaryCorners(const cv::Mat& mask, const Working& w) {
+  std::vector<std::vector<cv::Point>> contours;
+  cv::findContours(mask.clone(), contours, cv::RETR_EXTERNAL, cv::CHAIN_APPROX_SIMPLE);
+  std::vector<Point2d> out;
+  for (const auto& c : contours) {
+    for (const cv::Point& p : c) {
+      for (int dy = 0; dy <= 1; ++dy) {
+        for (int dx = 0; dx <= 1; ++dx) out.push_back({(p.x + dx) * w.fx, (p.y + dy) * w.fy});
+      }
+    }
+  }
+  return out;
+}
+
+// Log value of the 3x3 mean around a full-resolution pixel.
+float LocalLog(const Image& image, int x, int y, bool linear) {
+  float sum = 0.0f;
+  int n = 0;
+  for (int dy = -1; dy <= 1; ++dy) {
+    int yy = std::clamp(y + dy, 0, image.height() - 1);
+    for (int dx = -1; dx <= 1; ++dx) {
+      sum += image.at(std::clamp(x + dx, 0, image.width() - 1), yy);
+      ++n;
+    }
+  }
+  float mean = sum / n;
+  return anatomy_internal::ToLog(mean, linear);
+}
+
+struct Refiner {
+  const Image& image;
+  const Working& w;
+  const Segmentation& s;
+  const FieldFrame& frame;
+  bool linear;
+  cv::Mat near;  // anatomy grown by two working pixels
+
+  float Residual(int x, int y) const {
+    double wx = (x + 0.5) / w.fx - 0.5, wy = (y + 0.5) / w.fy - 0.5;
+    return static_cast<float>(anatomy_internal::SurfaceAt(s.surface, wx, wy) -
+                              LocalLog(image, x, y, linear));
+  }
+  bool Usable(int x, int y) const {
+    int wx = std::min(static_cast<int>(x / w.fx), w.field.cols - 1);
+    int wy = std::min(static_cast<int>(y / w.fy), w.field.rows - 1);
+    return w.field.at<uchar>(wy, wx) && near.at<uchar>(wy, wx) && !s.metal.at<uchar>(wy, wx);
+  }
+};
+
+// Noise of the full-resolution residual, from direct-exposure pixels.
+double FullResolutionNoise(const Refiner& r) {
+  std::vector<float> v;
+  cv::Mat direct = (r.s.residual <= r.s.threshold) & r.w.field;
+  std::vector<cv::Point> pts;
+  cv::findNonZero(direct, pts);
+  size_t stride = std::max<size_t>(1, pts.size() / 4000);
+  for (size_t i = 0; i < pts.size(); i += stride) {
+    int x = static_cast<int>((pts[i].x + 0.5) * r.w.fx), y = static_cast<int>((pts[i].y + 0.5) * r.w.fy);
+    if (x < r.image.width() && y < r.image.height()) v.push_back(r.Residual(x, y));
+  }
+  if (v.size() < 10) return 0.0;
+  auto mid = v.begin() + v.size() / 2;
+  std::nth_element(v.begin(), mid, v.end());
+  float med = *mid;
+  for (float& x : v) x = std::fabs(x - med);
+  std::nth_element(v.begin(), mid, v.end());
+  return 1.4826 * *mid;
+}
+
+// Moves each box side to the outermost full-resolution tissue pixel within a band of a few
+// working pixels around the coarse side.
+void RefineSides(const Refiner& r, double threshold, BoxExtents& e) {
+  const double band = 2.0 * std::max(r.w.fx, r.w.fy);
+  for (Side side : kAllSides) {
+    int k = static_cast<int>(side);
+    bool upper = k == 1 || k == 3;
+    double lo = upper ? e[k] - 2.0 * band : e[k] - 0.5 * band;
+    double hi = upper ? e[k] + 0.5 * band : e[k] + 2.0 * band;
+    // Image-space bounding box of the band (the band crosses the whole anatomy).
+    double a0 = k < 2 ? lo : e[0], a1 = k < 2 ? hi : e[1];
+    double b0 = k < 2 ? e[2] : lo, b1 = k < 2 ? e[3] : hi;
+    std::array<Point2d, 4> c = {r.frame.From(a0, b0), r.frame.From(a1, b0),
+                                r.frame.From(a1, b1), r.frame.From(a0, b1)};
+    double x0 = 1e300, x1 = -1e300, y0 = 1e300, y1 = -1e300;
+    for (const Point2d& p : c) {
+      x0 = std::min(x0, p.x); x1 = std::max(x1, p.x);
+      y0 = std::min(y0, p.y); y1 = std::max(y1, p.y);
+    }
+    int ix0 = std::max(0, static_cast<int>(x0)), ix1 = std::min(r.image.width() - 1, static_cast<int>(x1));
+    int iy0 = std::max(0, static_cast<int>(y0)), iy1 = std::min(r.image.height() - 1, static_cast<int>(y1));
+    double best = upper ? -1e300 : 1e300;
+    for (int y = iy0; y <= iy1; ++y) {
+      for (int x = ix0; x <= ix1; ++x) {
+        Point2d p{x + 0.5, y + 0.5};
+        double t = k < 2 ? r.frame.U(p) : r.frame.V(p);
+        if (t < lo || t > hi || (upper ? t <= best : t >= best)) continue;
+        if (!r.Usable(x, y) || r.Residual(x, y) <= threshold) continue;
+        best = t;
+      }
+    }
+    if (std::fabs(best) < 1e299) e[k] = upper ? best + 0.5 : best - 0.5;
+  }
+}
+
+// A visible blade edge is clipped when tissue lies just inside it over at least 2 mm.
+std::vector<Side> ClippedSides(const FieldMeasurement& field, const Working& w,
+                               const Segmentation& s, const std::array<double, 2>& spacing) {
+  std::vector<Side> out;
+  cv::Mat tissue = s.direct_found ? cv::Mat((s.residual > s.threshold) & ~s.metal) : w.field;
+  Point2d centre{0.0, 0.0};
+  for (const Point2d& p : field.polygon_px) {
+    centre.x += p.x / field.polygon_px.size();
+    centre.y += p.y / field.polygon_px.size();
+  }
+  double step_px = 1.0 / std::min(spacing[0], spacing[1]);  // 1 mm
+  for (const SideMeasurement& sm : field.sides) {
+    if (!sm.visible || !sm.line_px) continue;
+    Line line = LineThrough(sm.line_px->a, sm.line_px->b);
+    double inward = line.SignedDistance(centre) > 0 ? 1.0 : -1.0;
+    double depth = (w.erosion_px + 1.0) * std::max(w.fx, w.fy);
+    double len = std::hypot(sm.line_px->b.x - sm.line_px->a.x, sm.line_px->b.y - sm.line_px->a.y);
+    int n = std::max(2, static_cast<int>(len / step_px));
+    int hits = 0, run = 0;
+    for (int i = 0; i <= n; ++i) {
+      double t = static_cast<double>(i) / n;
+      Point2d p{sm.line_px->a.x + t * (sm.line_px->b.x - sm.line_px->a.x) + inward * depth * line.nx,
+                sm.line_px->a.y + t * (sm.line_px->b.y - sm.line_px->a.y) + inward * depth * line.ny};
+      int wx = static_cast<int>(p.x / w.fx), wy = static_cast<int>(p.y / w.fy);
+      bool inside = wx >= 0 && wy >= 0 && wx < w.field.cols && wy < w.field.rows &&
+                    w.field.at<uchar>(wy, wx);
+      run = inside && tissue.at<uchar>(wy, wx) ? run + 1 : 0;
+      hits = std::max(hits, run);
+    }
+    if (hits >= 3) out.push_back(sm.side);
+  }
+  return out;
+}
+
+}  // namespace
+
+AnatomyMeasurement FindAnatomy(const Image& image, const FieldMeasurement& field,
+                               const AnatomyContext& context, const AnatomyOptions& options,
+                               std::vector<std::string>* notes) {
+  AnatomyMeasurement out;
+  if (image.empty() || field.polygon_px.size() < 3) return out;
+  std::array<double, 2> spacing = context.spacing_mm.value_or(
+      std::array<double, 2>{kNominalPixelMm, kNominalPixelMm});
+  double working_mm = std::max(options.working_pixel_mm, std::max(spacing[0], spacing[1]));
+  Working w = anatomy_internal::MakeWorking(image, field, spacing, context.linear, working_mm);
+  Segmentation s = anatomy_internal::Segment(w, spacing, working_mm);
+  if (notes && !s.direct_found && cv::countNonZero(w.field) > 0) {
+    notes->push_back("no direct exposure inside the field: the anatomy fills the field");
+  }
+  if (notes && s.markers_removed > 0) {
+    notes->push_back(std::to_string(s.markers_removed) +
+                     " lead marker(s) or shield(s) left out of the anatomy");
+  }
+  if (cv::countNonZero(s.anatomy) == 0) return out;
+  FieldFrame frame(field.rotation_deg);
+  std::vector<Point2d> corners = BoundaryCorners(s.anatomy, w);
+  BoxExtents e = metrics_internal::ExtentsOf(frame, corners);
+  std::vector<Side> clipped = ClippedSides(field, w, s, spacing);
+  if (options.refine && s.direct_found) {
+    Refiner r{image, w, s, frame, context.linear, cv::Mat()};
+    cv::dilate(s.anatomy, r.near, cv::getStructuringElement(cv::MORPH_ELLIPSE, cv::Size(5, 5)));
+    double threshold = std::max(s.threshold, 5.0 * FullResolutionNoise(r));
+    if (threshold < 0.8 * s.tissue_level) RefineSides(r, threshold, e);
+  }
+  // Clipped sides reach the blade; no side goes past the field.
+  BoxExtents f = metrics_internal::ExtentsOf(frame, field.polygon_px);
+  for (Side side : clipped) {
+    int k = static_cast<int>(side);
+    e[k] = f[k];
+  }
+  if (!s.direct_found) e = f;
+  e[0] = std::max(e[0], f[0]);
+  e[1] = std::min(e[1], f[1]);
+  e[2] = std::max(e[2], f[2]);
+  e[3] = std::min(e[3], f[3]);
+  out.found = true;
+  out.box_px = metrics_internal::BoxCorners(frame, e);
+  out.hull_px = s.direct_found ? ConvexHull(corners) : field.polygon_px;
+  double px_mm2 = w.fx * w.fy * spacing[0] * spacing[1];
+  out.area_mm2 = s.direct_found ? cv::countNonZero(s.anatomy) * px_mm2
+                                : (field.area_mm2 ? *field.area_mm2 : field.area_px * spacing[0] * spacing[1]);
+  out.clipped_sides = clipped;
+  if (!context.spacing_mm) out.area_mm2.reset();
+  return out;
+}
+
+}  // namespace beamtrim

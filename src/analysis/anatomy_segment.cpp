@@ -1,0 +1,297 @@
+// Segmentation of the field into direct exposure, anatomy and non-anatomical metal, on a
+// working image of about 1 mm pixels in the log domain (docs/metrics.md, "Anatomy").
+#include <algorithm>
+#include <cmath>
+#include <vector>
+
+#include <opencv2/imgproc.hpp>
+
+#include "analysis/anatomy_internal.h"
+
+namespace beamtrim::anatomy_internal {
+namespace {
+
+double Median(std::vector<float> v) {
+  if (v.empty()) return 0.0;
+  auto mid = v.begin() + v.size() / 2;
+  std::nth_element(v.begin(), mid, v.end());
+  return *mid;
+}
+
+double Quantile(std::vector<float> v, double q) {
+  if (v.empty()) return 0.0;
+  auto k = v.begin() + static_cast<long>(std::clamp(q, 0.0, 1.0) * (v.size() - 1));
+  std::nth_element(v.begin(), k, v.end());
+  return *k;
+}
+
+std::vector<float> Values(const cv::Mat& img, const cv::Mat& mask) {
+  std::vector<float> out;
+  for (int y = 0; y < img.rows; ++y) {
+    const float* p = img.ptr<float>(y);
+    const uchar* m = mask.ptr<uchar>(y);
+    for (int x = 0; x < img.cols; ++x) {
+      if (m[x]) out.push_back(p[x]);
+    }
+  }
+  return out;
+}
+
+double RobustSigma(const std::vector<float>& v) {
+  if (v.size() < 2) return 0.0;
+  double med = Median(v);
+  std::vector<float> dev(v.size());
+  for (size_t i = 0; i < v.size(); ++i) dev[i] = static_cast<float>(std::fabs(v[i] - med));
+  return 1.4826 * Median(dev);
+}
+
+// Otsu's threshold (Otsu 1979) on a 256-bin histogram between the 0.5 and 99.5 percentiles.
+double OtsuThreshold(const std::vector<float>& v) {
+  double lo = Quantile(v, 0.005);
+  double hi = Quantile(v, 0.995);
+  if (!(hi > lo)) return hi;
+  std::vector<double> hist(256, 0.0);
+  for (float x : v) {
+    int b = static_cast<int>((x - lo) / (hi - lo) * 255.0);
+    hist[std::clamp(b, 0, 255)] += 1.0;
+  }
+  double total = 0.0, sum = 0.0;
+  for (int i = 0; i < 256; ++i) { total += hist[i]; sum += i * hist[i]; }
+  double w0 = 0.0, sum0 = 0.0, best = -1.0;
+  int best_i = 127;
+  for (int i = 0; i < 255; ++i) {
+    w0 += hist[i];
+    sum0 += i * hist[i];
+    double w1 = total - w0;
+    if (w0 <= 0.0 || w1 <= 0.0) continue;
+    double m0 = sum0 / w0, m1 = (sum - sum0) / w1;
+    double between = w0 * w1 * (m0 - m1) * (m0 - m1);
+    if (between > best) { best = between; best_i = i; }
+  }
+  return lo + (best_i + 1) * (hi - lo) / 255.0;
+}
+
+// Least-squares plane through the direct-exposure level, one pass of outlier rejection.
+// A plane, not a higher order: it follows the heel effect yet never runs away outside the
+// sampled area.
+std::array<double, 6> FitSurface(const cv::Mat& log, const cv::Mat& mask) {
+  std::vector<cv::Point> pts;
+  cv::findNonZero(mask, pts);
+  std::array<double, 6> q{};
+  if (pts.empty()) return q;
+  size_t stride = std::max<size_t>(1, pts.size() / 20000);
+  std::vector<char> keep(pts.size(), 1);
+  for (int pass = 0; pass < 2; ++pass) {
+    cv::Mat a = cv::Mat::zeros(3, 3, CV_64F), b = cv::Mat::zeros(3, 1, CV_64F);
+    for (size_t i = 0; i < pts.size(); i += stride) {
+      if (!keep[i]) continue;
+      double r[3] = {1.0, static_cast<double>(pts[i].x), static_cast<double>(pts[i].y)};
+      double z = log.at<float>(pts[i]);
+      for (int j = 0; j < 3; ++j) {
+        b.at<double>(j) += r[j] * z;
+        for (int k = 0; k < 3; ++k) a.at<double>(j, k) += r[j] * r[k];
+      }
+    }
+    cv::Mat sol;
+    if (!cv::solve(a, b, sol, cv::DECOMP_SVD)) return q;
+    q = {sol.at<double>(0), sol.at<double>(1), sol.at<double>(2), 0.0, 0.0, 0.0};
+    std::vector<float> res;
+    for (size_t i = 0; i < pts.size(); i += stride) {
+      res.push_back(static_cast<float>(log.at<float>(pts[i]) - SurfaceAt(q, pts[i].x, pts[i].y)));
+    }
+    double sigma = std::max(RobustSigma(res), 1e-6);
+    for (size_t i = 0; i < pts.size(); i += stride) {
+      double d = log.at<float>(pts[i]) - SurfaceAt(q, pts[i].x, pts[i].y);
+      keep[i] = std::fabs(d) <= 3.0 * sigma;
+    }
+  }
+  return q;
+}
+
+cv::Mat Disk(int radius) {
+  return cv::getStructuringElement(cv::MORPH_ELLIPSE, cv::Size(2 * radius + 1, 2 * radius + 1));
+}
+
+// Share of the ring around `blob` (inside the field) that is direct exposure.
+double DirectShareAround(const cv::Mat& blob, const cv::Mat& field, const cv::Mat& direct) {
+  cv::Mat ring;
+  cv::dilate(blob, ring, Disk(3));
+  ring &= field;
+  ring &= ~blob;
+  int n = cv::countNonZero(ring);
+  if (n == 0) return 0.0;
+  return static_cast<double>(cv::countNonZero(ring & direct)) / n;
+}
+
+// Lead markers and shields: far darker than tissue, lying (mostly) in direct exposure.
+// Implants are surrounded by tissue and stay. Returns the metal mask removed from `anatomy`.
+cv::Mat RemoveMetal(const Working& w, Segmentation& s, const cv::Mat& direct, double min_px) {
+  cv::Mat metal = cv::Mat::zeros(w.log.size(), CV_8U);
+  cv::Mat outside;
+  cv::Mat field_full = w.field.clone();
+  cv::dilate(field_full, field_full, Disk(static_cast<int>(std::ceil(2 * w.erosion_px)) + 2));
+  outside = ~field_full;
+  std::vector<float> blocked = Values(w.log, outside);
+  std::vector<float> open = Values(w.log, direct);
+  double cut = -1e300;
+  if (blocked.size() >= 100 && !open.empty()) {
+    double lb = Median(blocked), ld = Median(open);
+    if (ld - lb > 6.0 * std::max(s.noise, 1e-6)) cut = lb + 0.35 * (ld - lb);
+  }
+  // Reference for the relative test: the 90th percentile of tissue attenuation.
+  double tissue_p90 = Quantile(Values(s.residual, s.anatomy), 0.9);
+  cv::Mat labels, stats, centroids;
+  int n = cv::connectedComponentsWithStats(s.anatomy, labels, stats, centroids, 8, CV_32S);
+  for (int i = 1; i < n; ++i) {
+    int area = stats.at<int>(i, cv::CC_STAT_AREA);
+    cv::Mat blob = labels == i;
+    std::vector<float> lv = Values(w.log, blob);
+    std::vector<float> rv = Values(s.residual, blob);
+    bool dark_absolute = Median(lv) < cut;
+    bool dark_relative = area < 0.2 * cv::countNonZero(s.anatomy) &&
+                         Median(rv) > 1.5 * tissue_p90;
+    if (area > 40 * min_px || !(dark_absolute || dark_relative)) continue;
+    if (DirectShareAround(blob, w.field, direct) < 0.6) continue;
+    metal |= blob;
+  }
+  // Metal touching the body (a marker on the skin line, a shield across the field edge):
+  // pixels at the blocked level whose surroundings are partly direct exposure.
+  if (cut > -1e300) {
+    cv::Mat dark = (w.log < cut) & w.field;
+    n = cv::connectedComponentsWithStats(dark, labels, stats, centroids, 8, CV_32S);
+    for (int i = 1; i < n; ++i) {
+      if (stats.at<int>(i, cv::CC_STAT_AREA) < 2) continue;
+      cv::Mat blob = labels == i;
+      if (DirectShareAround(blob, w.field, direct) >= 0.4) metal |= blob;
+    }
+  }
+  if (cv::countNonZero(metal) > 0) {
+    cv::Mat grown;
+    cv::dilate(metal, grown, Disk(2));  // the blurred rim of the metal edge
+    s.anatomy &= ~grown;
+    s.markers_removed = cv::connectedComponents(metal, labels, 8) - 1;
+  }
+  return metal;
+}
+
+void RemoveSmall(cv::Mat& mask, double min_px) {
+  cv::Mat labels, stats, centroids;
+  int n = cv::connectedComponentsWithStats(mask, labels, stats, centroids, 8, CV_32S);
+  for (int i = 1; i < n; ++i) {
+    if (stats.at<int>(i, cv::CC_STAT_AREA) < min_px) mask.setTo(0, labels == i);
+  }
+}
+
+// True when the field holds nothing but noise and smooth shading: the spread of the
+// plane-corrected values is within a few times the pixel-to-pixel noise.
+bool IsFlat(const Working& w) {
+  std::array<double, 6> q = FitSurface(w.log, w.field);
+  std::vector<float> res, diff;
+  for (int y = 0; y < w.log.rows; ++y) {
+    for (int x = 0; x + 1 < w.log.cols; ++x) {
+      if (!w.field.at<uchar>(y, x)) continue;
+      res.push_back(static_cast<float>(w.log.at<float>(y, x) - SurfaceAt(q, x, y)));
+      if (w.field.at<uchar>(y, x + 1)) diff.push_back(w.log.at<float>(y, x + 1) - w.log.at<float>(y, x));
+    }
+  }
+  double noise = RobustSigma(diff) / std::sqrt(2.0);
+  double spread = (Quantile(res, 0.95) - Quantile(res, 0.05)) / 3.29;  // sigma if Gaussian
+  return spread < 3.0 * std::max(noise, 1e-9);
+}
+
+}  // namespace
+
+double SurfaceAt(const std::array<double, 6>& q, double x, double y) {
+  return q[0] + q[1] * x + q[2] * y + q[3] * x * x + q[4] * x * y + q[5] * y * y;
+}
+
+Working MakeWorking(const Image& image, const FieldMeasurement& field,
+                    const std::array<double, 2>& spacing, bool linear, double working_mm) {
+  Working w;
+  cv::Mat full(image.height(), image.width(), CV_32F, const_cast<float*>(image.data()));
+  int cols = std::max(1, static_cast<int>(std::lround(image.width() * spacing[1] / working_mm)));
+  int rows = std::max(1, static_cast<int>(std::lround(image.height() * spacing[0] / working_mm)));
+  cols = std::min(cols, image.width());
+  rows = std::min(rows, image.height());
+  cv::Mat small;
+  cv::resize(full, small, cv::Size(cols, rows), 0, 0, cv::INTER_AREA);
+  w.fx = static_cast<double>(image.width()) / cols;
+  w.fy = static_cast<double>(image.height()) / rows;
+  w.log = small;
+  for (int y = 0; y < rows; ++y) {
+    float* p = w.log.ptr<float>(y);
+    for (int x = 0; x < cols; ++x) p[x] = ToLog(p[x], linear);
+  }
+  w.field = cv::Mat::zeros(rows, cols, CV_8U);
+  if (field.polygon_px.size() >= 3) {
+    constexpr int kShift = 4;
+    std::vector<cv::Point> pts;
+    for (const Point2d& p : field.polygon_px) {
+      pts.emplace_back(static_cast<int>(std::lround(p.x / w.fx * (1 << kShift))),
+                       static_cast<int>(std::lround(p.y / w.fy * (1 << kShift))));
+    }
+    std::vector<std::vector<cv::Point>> polys{pts};
+    cv::fillPoly(w.field, polys, cv::Scalar(255), cv::LINE_8, kShift);
+  }
+  // Past the 90 % point of the penumbra, plus the mixing of the area-averaged working pixels.
+  double penumbra_mm = 0.0;
+  for (const SideMeasurement& s : field.sides) {
+    if (s.visible && s.penumbra_px) {
+      penumbra_mm = std::max(penumbra_mm, *s.penumbra_px * 0.5 * (spacing[0] + spacing[1]));
+    }
+  }
+  penumbra_mm = std::min(penumbra_mm, 15.0);
+  w.erosion_px = std::ceil((0.75 * penumbra_mm + 1.5) / working_mm) + 1.0;
+  cv::erode(w.field, w.field, Disk(static_cast<int>(w.erosion_px)));
+  return w;
+}
+
+Segmentation Segment(const Working& w, const std::array<double, 2>& spacing, double working_mm) {
+  Segmentation s;
+  s.anatomy = cv::Mat::zeros(w.log.size(), CV_8U);
+  s.metal = cv::Mat::zeros(w.log.size(), CV_8U);
+  s.residual = cv::Mat::zeros(w.log.size(), CV_32F);
+  int field_px = cv::countNonZero(w.field);
+  if (field_px < 20) return s;
+  std::vector<float> values = Values(w.log, w.field);
+  double t = OtsuThreshold(values);
+  cv::Mat bright = (w.log > t) & w.field;
+  int bright_px = cv::countNonZero(bright);
+  s.surface = FitSurface(w.log, bright_px > 0 ? bright : w.field);
+  for (int y = 0; y < w.log.rows; ++y) {
+    const float* l = w.log.ptr<float>(y);
+    float* r = s.residual.ptr<float>(y);
+    for (int x = 0; x < w.log.cols; ++x) r[x] = static_cast<float>(SurfaceAt(s.surface, x, y) - l[x]);
+  }
+  s.noise = RobustSigma(Values(s.residual, bright));
+  s.tissue_level = Median(Values(s.residual, w.field & ~bright));
+  // Direct exposure: a bright class that is flat (narrow against the gap to the tissue),
+  // not a sliver, and reaching the field edge (air surrounds the patient) or large.
+  cv::Mat inner;
+  cv::erode(w.field, inner, Disk(1));
+  bool touches_edge = cv::countNonZero(bright & ~inner) >= 3;
+  s.direct_found = bright_px >= std::max(20.0, 0.01 * field_px) &&
+                   s.tissue_level > 6.0 * s.noise &&
+                   (touches_edge || bright_px > 0.15 * field_px);
+  double min_px = std::max(4.0, 10.0 / (working_mm * working_mm));  // 10 mm2
+  if (!s.direct_found) {
+    // No direct exposure at all: the field lies within the body and the anatomy fills it,
+    // unless the field is flat (nothing in the beam, e.g. a detector test exposure).
+    if (IsFlat(w)) return s;
+    s.anatomy = w.field.clone();
+    s.threshold = 0.0;
+    return s;
+  }
+  s.threshold = std::clamp(std::max(5.0 * s.noise, 0.1 * s.tissue_level), 0.0,
+                           0.5 * s.tissue_level);
+  s.anatomy = (s.residual > s.threshold) & w.field;
+  cv::morphologyEx(s.anatomy, s.anatomy, cv::MORPH_OPEN, Disk(1));
+  cv::Mat direct = (s.residual <= s.threshold) & w.field;
+  s.metal = RemoveMetal(w, s, direct, min_px);
+  cv::morphologyEx(s.anatomy, s.anatomy, cv::MORPH_OPEN, Disk(1));
+  RemoveSmall(s.anatomy, min_px);
+  (void)spacing;
+  return s;
+}
+
+}  // namespace beamtrim::anatomy_internal
