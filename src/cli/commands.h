@@ -16,5 +16,7 @@ int& ExitCode();
 
 void AddSynthCommand(CLI::App& app);
 void AddMeasureCommand(CLI::App& app);
+void AddOverlayCommand(CLI::App& app);
+void AddReportCommand(CLI::App& app);
 
 }  // namespace beamtrim::cli

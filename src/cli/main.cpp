@@ -27,6 +27,8 @@ int main(int argc, char** argv) {
 
   beamtrim::cli::AddSynthCommand(app);
   beamtrim::cli::AddMeasureCommand(app);
+  beamtrim::cli::AddOverlayCommand(app);
+  beamtrim::cli::AddReportCommand(app);
 
   try {
     app.parse(argc, argv);
