@@ -68,13 +68,24 @@ struct FieldOptions {
   // Target pixel size of the working image for the coarse search, in mm (or in pixels of
   // about 1/8 of the longer side when the spacing is unknown).
   double working_pixel_mm = 2.0;
+  // Look for a second exposed field on the plate (computed radiography double exposure).
+  bool check_double_exposure = true;
 };
 
 // What the detector may know about the image besides its pixels.
 struct FieldContext {
   std::optional<std::array<double, 2>> spacing_mm;  // [row, column] at the detector plane
   bool linear = false;  // pixel values proportional to exposure (raw, FOR PROCESSING)
+  // Extent of the receptor that was exposed, [rows, columns] in mm at the detector plane:
+  // Field of View Dimension(s) (0018,1149) when present, else Detector Active Dimension(s)
+  // (0018,7026). An image clearly smaller than this was cropped after the exposure, so a
+  // field reaching its border may have been cut there rather than by a blade.
+  std::optional<std::array<double, 2>> receptor_mm;
 };
+
+struct RadiographHeader;  // dicom.h
+// The context the header gives: detector-plane spacing and receptor extent.
+FieldContext FieldContextFromHeader(const RadiographHeader& header, bool linear);
 
 FieldMeasurement DetectField(const Image& image, const FieldContext& context,
                              const FieldOptions& options = {});

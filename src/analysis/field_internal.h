@@ -1,0 +1,171 @@
+// Internal stages of the field detector (docs/method.md, "Field detection"). Each stage is a
+// pure function on value types so the tests can drive it alone. Not part of the public API.
+#pragma once
+
+#include <array>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include <opencv2/core.hpp>
+
+#include "beamtrim/field.h"
+#include "beamtrim/geometry.h"
+#include "beamtrim/image.h"
+
+namespace beamtrim::field_internal {
+
+// ---- Working resolution (field_working.cpp) ---------------------------------------------
+
+// Block mean over factor x factor pixels; partial blocks at the right/bottom border average
+// the pixels they have. Also the block minimum and maximum (for the constant-mask test).
+struct Blocks {
+  cv::Mat1f mean;
+  cv::Mat1f min;
+  cv::Mat1f max;
+};
+Blocks DownsampleBlocks(const Image& image, int factor);
+// Slow, obvious reference of the block mean (tests compare the two).
+cv::Mat1f DownsampleMeanReference(const Image& image, int factor);
+
+// Full-resolution pixels per working pixel for the options and the spacing.
+int WorkingFactor(const Image& image, const FieldContext& context, const FieldOptions& options);
+
+struct WorkingImage {
+  int factor = 1;          // full-resolution pixels per working pixel
+  cv::Mat1f value;         // log of the block mean (linear input) or the block mean
+  cv::Mat1b valid;         // 0 where blanked (or next to the mask)
+  cv::Mat1b blanked;       // the constant mask itself
+  double lo = 0.0;         // robust range of valid values (0.1 and 99.9 percentiles)
+  double hi = 1.0;
+  double log_floor = 0.0;  // smallest linear value before the logarithm (linear input)
+  bool linear = false;
+};
+
+// Percentile (0..100) of the values where mask != 0 (all values when the mask is empty).
+double Percentile(const cv::Mat1f& values, const cv::Mat1b& mask, double pct);
+
+// ---- Blanking (field_checks.cpp) --------------------------------------------------------
+
+struct BlankResult {
+  bool blanked = false;
+  float value = 0.0f;
+  cv::Mat1b mask;  // working resolution, 255 = constant mask connected to the border
+};
+// Finds an electronically blanked outside: blocks of exactly one constant value, connected to
+// the image border, covering a noticeable share of the image, whose boundary is a jump (not
+// the gradual approach of a display window clipping a dark plateau).
+BlankResult FindBlankMask(const Image& image, const Blocks& blocks, int factor);
+
+// ---- Rotated frame and side candidates (field_lines.cpp) --------------------------------
+
+// The working image resampled on a grid aligned with a field angle: column i, row j has its
+// centre at u = u0 + i + 0.5, v = v0 + j + 0.5, with u = x cos(a) + y sin(a),
+// v = -x sin(a) + y cos(a) in working-pixel coordinates (x, y).
+struct Frame {
+  double angle_deg = 0.0;
+  double u0 = 0.0;
+  double v0 = 0.0;
+  cv::Mat1f value;
+  cv::Mat1b valid;
+  cv::Mat1f grad;  // gradient magnitude per working pixel
+};
+Frame MakeFrame(const WorkingImage& working, const cv::Mat1f& grad, double angle_deg);
+
+// Dominant field angles in [-45, 45), best first: a Hough accumulator over angle x offset of
+// the gradient, signed by polarity, scored by the strongest line of each orientation and
+// polarity. At most `count` local maxima at least 4 degrees apart.
+std::vector<double> CandidateAngles(const WorkingImage& working, const cv::Mat1f& gx,
+                                    const cv::Mat1f& gy, int count);
+
+// Evidence that a blade edge lies on one boundary of the rotated frame.
+struct SideEvidence {
+  bool blade = false;      // passes every blade test
+  double position = 0.0;   // boundary coordinate in frame pixels (column or row index)
+  double score = 0.0;
+  double support = 0.0;    // fraction of the edge length with the step
+  double step = 0.0;       // inside level - outside level (working value units)
+  double outside = 0.0;    // blocked plateau level next to the edge
+  double inside = 0.0;     // open level next to the edge
+  double bright = 0.0;     // share of the outside strip brighter than half-way
+  double bright_far = 0.0; // the same over the whole half-plane beyond the edge
+  double texture = 0.0;    // share of the outside strip with structure
+  double flatness = 0.0;   // outside level fall-off away from the edge, relative to step
+  std::string why_not;     // first failed test
+};
+
+// Span of the perpendicular coordinate over which a side is tested: [lo, hi).
+struct Span {
+  int lo = 0;
+  int hi = 0;
+};
+
+// Boundary positions with a polarity-consistent step, strongest first (at most `count`).
+std::vector<int> SideCandidates(const Frame& frame, Side side, Span span, int count);
+SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span,
+                          double range, double depth_px);
+
+// ---- Rectangle hypotheses (field_hypotheses.cpp) ----------------------------------------
+
+struct Rectangle {
+  double angle_deg = 0.0;
+  std::array<std::optional<SideEvidence>, 4> sides;  // nullopt: beyond the image
+  double score = 0.0;
+};
+// Best rectangle at one angle by coordinate ascent over the four sides.
+Rectangle BestRectangle(const Frame& frame, double range, double depth_px);
+
+// Line (full-resolution pixel coordinates) of a side of a frame at a boundary position, with
+// the normal pointing out of the field.
+Line FrameSideLine(const Frame& frame, Side side, double position, int factor);
+
+// ---- Sub-pixel refinement (field_refine.cpp) --------------------------------------------
+
+// One profile across an edge: samples at `step` px spacing from the outside (index 0) to the
+// inside, in the chosen domain.
+struct EdgeCrossing {
+  double offset = 0.0;     // position of the edge from the profile centre, px (+ = inward)
+  double low = 0.0;        // blocked level
+  double high = 0.0;       // open level
+  double penumbra = 0.0;   // 10-90 % width, px
+  bool ok = false;
+};
+// Locates the edge on a profile sampled every `step` px, centred at index (n-1)/2: the
+// crossing of `fraction` between the local blocked and open levels nearest to the steepest
+// rise; for the quarter-maximum definition pass fraction < 0 and `absolute_level`.
+EdgeCrossing LocateCrossing(const std::vector<double>& profile, double step, double fraction,
+                            std::optional<double> absolute_level = std::nullopt);
+
+// Bilinear sample at continuous coordinates (pixel centres at +0.5); clamps at the border.
+double SampleBilinear(const Image& image, double x, double y);
+
+// Robust straight-line fit (Tukey biweight, iteratively reweighted total least squares)
+// starting from `start`; returns the fitted line and the inlier share via `inliers`.
+Line RobustLineFit(const std::vector<Point2d>& points, const Line& start, double scale_px,
+                   double* inlier_share = nullptr);
+
+struct RefinedSide {
+  bool ok = false;
+  Line line;                      // normal points out of the field
+  double contrast_ratio = 0.0;
+  std::optional<double> penumbra_px;
+  double inlier_share = 0.0;
+  int profiles = 0;
+  bool quarter_fallback = false;  // quarter maximum asked but not found on this edge
+};
+// Refines a coarse side line at full resolution along the segment [a, b] of the line.
+RefinedSide RefineSide(const Image& image, const Line& coarse, Point2d a, Point2d b,
+                       double search_px, bool linear, EdgeDefinition definition,
+                       const cv::Mat1b* valid, int factor);
+
+// ---- Polygon and checks (field_checks.cpp) ----------------------------------------------
+
+// Clips `polygon` to the half-plane where line.SignedDistance(p) <= 0.
+Polygon ClipHalfPlane(const Polygon& polygon, const Line& line);
+
+// A second bright, roughly rectangular exposed region outside the main field, separated from
+// it by a blocked band. `field_w` is the field in working-pixel coordinates.
+bool FindSecondExposure(const WorkingImage& working, const Polygon& field_w, double blocked,
+                        double open, std::string* note);
+
+}  // namespace beamtrim::field_internal

@@ -1,0 +1,240 @@
+// Sub-pixel refinement of a blade edge at full resolution: intensity profiles across the coarse
+// line at many positions along it, the edge located on each profile, then a robust line fit.
+// Only narrow bands around the edges are read.
+#include <algorithm>
+#include <cmath>
+#include <vector>
+
+#include "analysis/field_internal.h"
+
+namespace beamtrim::field_internal {
+namespace {
+
+double MedianOf(std::vector<double> v) {
+  if (v.empty()) return 0.0;
+  auto mid = v.begin() + v.size() / 2;
+  std::nth_element(v.begin(), mid, v.end());
+  return *mid;
+}
+
+double MedianRange(const std::vector<double>& p, int a, int b) {
+  a = std::max(a, 0);
+  b = std::min(b, static_cast<int>(p.size()));
+  if (b <= a) return std::nan("");
+  return MedianOf(std::vector<double>(p.begin() + a, p.begin() + b));
+}
+
+// Crossing of `level` by the rising profile nearest to index `from` (continuous index).
+std::optional<double> NearestCrossing(const std::vector<double>& p, int from, double level) {
+  const int n = static_cast<int>(p.size());
+  for (int d = 0; d < n; ++d) {
+    for (int j : {from + d, from - d - 1}) {
+      if (j < 0 || j + 1 >= n) continue;
+      if (p[j] <= level && p[j + 1] > level) return j + (level - p[j]) / (p[j + 1] - p[j]);
+    }
+  }
+  return std::nullopt;
+}
+
+}  // namespace
+
+double SampleBilinear(const Image& image, double x, double y) {
+  const double fx = std::clamp(x - 0.5, 0.0, image.width() - 1.0);
+  const double fy = std::clamp(y - 0.5, 0.0, image.height() - 1.0);
+  const int x0 = std::min(static_cast<int>(fx), image.width() - 2 < 0 ? 0 : image.width() - 2);
+  const int y0 = std::min(static_cast<int>(fy), image.height() - 2 < 0 ? 0 : image.height() - 2);
+  const int x1 = std::min(x0 + 1, image.width() - 1);
+  const int y1 = std::min(y0 + 1, image.height() - 1);
+  const double ax = fx - x0, ay = fy - y0;
+  const double top = image.at(x0, y0) * (1 - ax) + image.at(x1, y0) * ax;
+  const double bottom = image.at(x0, y1) * (1 - ax) + image.at(x1, y1) * ax;
+  return top * (1 - ay) + bottom * ay;
+}
+
+EdgeCrossing LocateCrossing(const std::vector<double>& p, double step, double fraction,
+                            std::optional<double> absolute_level) {
+  EdgeCrossing out;
+  const int n = static_cast<int>(p.size());
+  if (n < 8) return out;
+  // Steepest rise on a lightly smoothed derivative.
+  int steepest = -1;
+  double best = 0.0;
+  for (int i = 2; i + 2 < n; ++i) {
+    const double d = (p[i + 2] + p[i + 1]) - (p[i - 1] + p[i - 2]);
+    if (d > best) { best = d; steepest = i; }
+  }
+  if (steepest < 0) return out;
+  // First levels from the profile ends, then from windows just beyond the transition.
+  const int quarter = std::max(2, n / 5);
+  double low = MedianRange(p, 0, quarter);
+  double high = MedianRange(p, n - quarter, n);
+  for (int iter = 0; iter < 2; ++iter) {
+    if (!(high > low)) return out;
+    auto c10 = NearestCrossing(p, steepest, low + 0.1 * (high - low));
+    auto c90 = NearestCrossing(p, steepest, low + 0.9 * (high - low));
+    if (!c10 || !c90) return out;
+    const double width = std::max(1.0, *c90 - *c10);
+    const int window = std::max(4, static_cast<int>(width));
+    const int a = static_cast<int>(std::floor(*c10 - 0.5 * width));
+    const int b = static_cast<int>(std::ceil(*c90 + 0.5 * width));
+    const double l = MedianRange(p, a - window, a);
+    const double h = MedianRange(p, b + 1, b + 1 + window);
+    if (std::isnan(l) || std::isnan(h)) break;  // keep the levels from the ends
+    low = l;
+    high = h;
+  }
+  if (!(high > low)) return out;
+  const double level = absolute_level ? *absolute_level : low + fraction * (high - low);
+  auto c = NearestCrossing(p, steepest, level);
+  auto c10 = NearestCrossing(p, steepest, low + 0.1 * (high - low));
+  auto c90 = NearestCrossing(p, steepest, low + 0.9 * (high - low));
+  if (!c || !c10 || !c90) return out;
+  out.offset = (*c - 0.5 * (n - 1)) * step;
+  out.low = low;
+  out.high = high;
+  out.penumbra = std::max(0.0, *c90 - *c10) * step;
+  out.ok = true;
+  return out;
+}
+
+Line RobustLineFit(const std::vector<Point2d>& pts, const Line& start, double scale_px,
+                   double* inlier_share) {
+  Line line = start;
+  const size_t n = pts.size();
+  if (n < 2) {
+    if (inlier_share) *inlier_share = 0.0;
+    return line;
+  }
+  std::vector<double> w(n, 1.0), r(n);
+  double sigma = std::max(scale_px, 1e-3);
+  for (int iter = 0; iter < 12; ++iter) {
+    for (size_t i = 0; i < n; ++i) r[i] = line.SignedDistance(pts[i]);
+    if (iter > 0) {
+      std::vector<double> a(n);
+      for (size_t i = 0; i < n; ++i) a[i] = std::fabs(r[i]);
+      sigma = std::max(1.4826 * MedianOf(a), 0.02);
+    }
+    const double c = 4.685 * sigma;  // Tukey biweight, 95 % efficiency constant
+    double sw = 0, mx = 0, my = 0;
+    for (size_t i = 0; i < n; ++i) {
+      const double u = r[i] / c;
+      w[i] = std::fabs(u) < 1.0 ? (1 - u * u) * (1 - u * u) : 0.0;
+      sw += w[i];
+      mx += w[i] * pts[i].x;
+      my += w[i] * pts[i].y;
+    }
+    if (sw <= 0.0) break;
+    mx /= sw;
+    my /= sw;
+    double sxx = 0, sxy = 0, syy = 0;
+    for (size_t i = 0; i < n; ++i) {
+      const double dx = pts[i].x - mx, dy = pts[i].y - my;
+      sxx += w[i] * dx * dx;
+      sxy += w[i] * dx * dy;
+      syy += w[i] * dy * dy;
+    }
+    // Normal = eigenvector of the smaller eigenvalue of the scatter matrix.
+    const double theta = 0.5 * std::atan2(2 * sxy, sxx - syy);  // direction of the line
+    double nx = -std::sin(theta), ny = std::cos(theta);
+    if (nx * start.nx + ny * start.ny < 0) { nx = -nx; ny = -ny; }
+    line = Line{nx, ny, nx * mx + ny * my};
+  }
+  if (inlier_share) {
+    int in = 0;
+    for (size_t i = 0; i < n; ++i) in += std::fabs(line.SignedDistance(pts[i])) < 4.685 * sigma;
+    *inlier_share = static_cast<double>(in) / n;
+  }
+  return line;
+}
+
+namespace {
+
+struct ProfileSet {
+  std::vector<Point2d> points;
+  std::vector<double> lows, highs, penumbras;
+  int quarter_misses = 0;
+};
+
+ProfileSet SampleProfiles(const Image& image, const Line& line, Point2d a, Point2d b,
+                          double half, bool linear, EdgeDefinition def, const cv::Mat1b* valid,
+                          int factor) {
+  ProfileSet set;
+  const double len = std::hypot(b.x - a.x, b.y - a.y);
+  if (len < 1.0) return set;
+  const double tx = (b.x - a.x) / len, ty = (b.y - a.y) / len;
+  const double nx = line.nx, ny = line.ny;
+  const double step = 0.5;
+  const int m = 2 * static_cast<int>(std::ceil(half / step)) + 1;
+  const double h = 0.5 * (m - 1) * step;
+  const int count = std::clamp(static_cast<int>(len / 4.0), 2, 80);
+  const int tangential = std::clamp(factor / 4, 1, 3);
+  auto is_valid = [&](double x, double y) {
+    if (!valid || valid->empty()) return true;
+    const int wx = static_cast<int>(x / factor), wy = static_cast<int>(y / factor);
+    if (wx < 0 || wy < 0 || wx >= valid->cols || wy >= valid->rows) return false;
+    return (*valid)(wy, wx) != 0;
+  };
+  std::vector<double> prof(m);
+  for (int k = 0; k < count; ++k) {
+    const double s = (k + 0.5) * len / count;
+    const double qx = a.x + s * tx, qy = a.y + s * ty;
+    // Projected onto the current line so the profile is centred on it.
+    const double d = line.SignedDistance({qx, qy});
+    const double cx = qx - d * nx, cy = qy - d * ny;
+    if (!is_valid(cx + h * nx, cy + h * ny) || !is_valid(cx - h * nx, cy - h * ny)) continue;
+    if (cx < 0 || cy < 0 || cx > image.width() || cy > image.height()) continue;
+    for (int i = 0; i < m; ++i) {
+      const double o = h - i * step;  // outside (index 0) to inside
+      double sum = 0.0;
+      for (int j = -tangential; j <= tangential; ++j) {
+        sum += SampleBilinear(image, cx + o * nx + j * tx, cy + o * ny + j * ty);
+      }
+      prof[i] = sum / (2 * tangential + 1);
+    }
+    std::optional<double> absolute;
+    if (def == EdgeDefinition::kQuarterMaximum && linear) {
+      absolute = 0.25 * *std::max_element(prof.begin() + m / 2, prof.end());
+    }
+    EdgeCrossing e = LocateCrossing(prof, step, 0.5, absolute);
+    if (!e.ok && absolute) {
+      ++set.quarter_misses;
+      e = LocateCrossing(prof, step, 0.5);
+    }
+    if (!e.ok) continue;
+    set.points.push_back({cx - e.offset * nx, cy - e.offset * ny});
+    set.lows.push_back(e.low);
+    set.highs.push_back(e.high);
+    set.penumbras.push_back(e.penumbra);
+  }
+  return set;
+}
+
+}  // namespace
+
+RefinedSide RefineSide(const Image& image, const Line& coarse, Point2d a, Point2d b,
+                       double search_px, bool linear, EdgeDefinition definition,
+                       const cv::Mat1b* valid, int factor) {
+  RefinedSide out;
+  Line line = coarse;
+  double half = search_px;
+  ProfileSet set;
+  for (int pass = 0; pass < 2; ++pass) {
+    set = SampleProfiles(image, line, a, b, half, linear, definition, valid, factor);
+    if (set.points.size() < 3) return out;
+    line = RobustLineFit(set.points, line, pass == 0 ? half / 2 : 1.0, &out.inlier_share);
+    // Second pass: a narrower window around the fitted line, wide enough for the penumbra.
+    half = std::max(8.0, 3.0 * MedianOf(set.penumbras));
+    half = std::min(half, search_px);
+  }
+  out.ok = true;
+  out.line = line;
+  out.profiles = static_cast<int>(set.points.size());
+  const double low = MedianOf(set.lows), high = MedianOf(set.highs);
+  out.contrast_ratio = low > 0.0 ? high / low : 0.0;
+  if (!linear && low > 0.0) out.contrast_ratio = high / low;
+  out.penumbra_px = MedianOf(set.penumbras);
+  out.quarter_fallback = set.quarter_misses * 2 > static_cast<int>(set.points.size());
+  return out;
+}
+
+}  // namespace beamtrim::field_internal

@@ -1,0 +1,198 @@
+// Stages of the field detector against independent references (OpenCV) and against profiles
+// with a known answer (synthetic ground truth by construction).
+#include <doctest/doctest.h>
+
+#include <cmath>
+#include <random>
+#include <vector>
+
+#include <opencv2/imgproc.hpp>
+
+#include "analysis/field_internal.h"
+#include "analysis/field_test_images.h"
+
+using namespace beamtrim;
+using namespace beamtrim::field_internal;
+
+namespace {
+
+Image RandomImage(int w, int h, unsigned seed) {
+  Image img(w, h);
+  std::mt19937 rng(seed);
+  std::uniform_real_distribution<float> u(0.0f, 1000.0f);
+  for (int y = 0; y < h; ++y) for (int x = 0; x < w; ++x) img.at(x, y) = u(rng);
+  return img;
+}
+
+// A profile through a linear penumbra ramp of width `penumbra` px centred at `edge` px from the
+// profile centre, sampled every `step` px, from `low` (outside) to `high`.
+std::vector<double> RampProfile(int n, double step, double edge, double penumbra, double low,
+                                double high) {
+  std::vector<double> p(n);
+  for (int i = 0; i < n; ++i) {
+    const double x = (i - 0.5 * (n - 1)) * step;
+    p[i] = low + (high - low) * testimg::Ramp(x - edge, penumbra);
+  }
+  return p;
+}
+
+}  // namespace
+
+TEST_CASE("BlockMeanMatchesSlowReferenceIncludingPartialBlocks") {
+  // Fast kernel vs the obvious loop (project rule: every fast kernel has a slow reference).
+  Image img = RandomImage(103, 77, 3);
+  for (int factor : {1, 2, 5, 8}) {
+    Blocks fast = DownsampleBlocks(img, factor);
+    cv::Mat1f slow = DownsampleMeanReference(img, factor);
+    REQUIRE(fast.mean.size() == slow.size());
+    CHECK(cv::norm(fast.mean, slow, cv::NORM_INF) < 1e-3);
+  }
+}
+
+TEST_CASE("BlockMeanMatchesOpenCvAreaResizeForWholeBlocks") {
+  // Independent reference: cv::resize with INTER_AREA averages whole blocks for an integer
+  // shrink factor (OpenCV documentation, "resize").
+  Image img = RandomImage(120, 80, 5);
+  cv::Mat1f src(80, 120, img.data());
+  cv::Mat1f ref;
+  cv::resize(src, ref, cv::Size(30, 20), 0, 0, cv::INTER_AREA);
+  Blocks fast = DownsampleBlocks(img, 4);
+  CHECK(cv::norm(fast.mean, ref, cv::NORM_INF) < 1e-2);
+}
+
+TEST_CASE("BlockMinMaxAreTheExtremesOfEachBlock") {
+  Image img = RandomImage(50, 40, 7);
+  Blocks b = DownsampleBlocks(img, 8);
+  cv::Mat1f src(40, 50, img.data());
+  double mn, mx;
+  cv::minMaxLoc(src(cv::Rect(8, 16, 8, 8)), &mn, &mx);
+  CHECK(b.min(2, 1) == doctest::Approx(mn));
+  CHECK(b.max(2, 1) == doctest::Approx(mx));
+  cv::minMaxLoc(src(cv::Rect(48, 32, 2, 8)), &mn, &mx);  // partial corner block
+  CHECK(b.max(4, 6) == doctest::Approx(mx));
+}
+
+TEST_CASE("BilinearSampleMatchesOpenCvGetRectSubPix") {
+  // cv::getRectSubPix samples with bilinear interpolation, pixel centres at integers.
+  Image img = RandomImage(40, 30, 11);
+  cv::Mat1f src(30, 40, img.data());
+  for (auto [x, y] : std::vector<std::pair<double, double>>{{10.3, 7.7}, {20.5, 20.5}, {3.9, 25.1}}) {
+    cv::Mat1f patch;
+    cv::getRectSubPix(src, cv::Size(1, 1), cv::Point2f(float(x - 0.5), float(y - 0.5)), patch);
+    CHECK(SampleBilinear(img, x, y) == doctest::Approx(patch(0, 0)).epsilon(1e-4));
+  }
+}
+
+TEST_CASE("HalfTransitionOfKnownPenumbraIsFoundWithinATenthOfAPixel") {
+  // Synthetic ground truth: a symmetric ramp puts the 50 % point at its centre (trade notes:
+  // the geometric blade projection is the 50 % point of a symmetric penumbra).
+  for (double edge : {-3.3, -0.25, 0.0, 1.7, 4.45}) {
+    for (double pen : {0.0, 2.0, 6.0, 15.0}) {
+      auto p = RampProfile(121, 0.5, edge, pen, 80.0, 1000.0);
+      EdgeCrossing c = LocateCrossing(p, 0.5, 0.5);
+      REQUIRE(c.ok);
+      CHECK(std::fabs(c.offset - edge) < 0.1);
+      // 10-90 % width of a linear ramp is 0.8 of its full width (geometry of a ramp).
+      if (pen >= 2.0) CHECK(std::fabs(c.penumbra - 0.8 * pen) < 0.3);
+    }
+  }
+}
+
+TEST_CASE("HalfTransitionUsesLocalLevelsNotTheProfileEnds") {
+  // A sloping blocked plateau (scatter falling away from the edge) and anatomy further in:
+  // the levels next to the transition decide, so the midpoint stays on the ramp centre.
+  std::vector<double> p = RampProfile(161, 0.5, 1.0, 4.0, 100.0, 1000.0);
+  for (size_t i = 0; i < p.size(); ++i) {
+    const double x = (i - 80.0) * 0.5;
+    if (x < -4) p[i] += 3.0 * (x + 4);  // plateau slope
+    if (x > 25) p[i] *= 0.5;            // anatomy far inside
+  }
+  EdgeCrossing c = LocateCrossing(p, 0.5, 0.5);
+  REQUIRE(c.ok);
+  CHECK(std::fabs(c.offset - 1.0) < 0.3);
+}
+
+TEST_CASE("QuarterMaximumLevelLiesOutsideTheHalfTransition") {
+  // 21 CFR 1020.30(b): the x-ray field edge is where exposure is one fourth of the maximum.
+  // Ramp 0 -> 1000 over 10 px centred at 0: 250 is reached 2.5 px outward of the centre.
+  auto p = RampProfile(121, 0.5, 0.0, 10.0, 0.0, 1000.0);
+  EdgeCrossing c = LocateCrossing(p, 0.5, -1.0, 250.0);
+  REQUIRE(c.ok);
+  CHECK(c.offset == doctest::Approx(-2.5).epsilon(0.02));
+}
+
+TEST_CASE("RobustLineFitAgreesWithOpenCvFitLineOnCleanPoints") {
+  std::vector<Point2d> pts;
+  std::vector<cv::Point2f> cvpts;
+  std::mt19937 rng(2);
+  std::normal_distribution<double> g(0.0, 0.2);
+  for (int i = 0; i < 50; ++i) {
+    const double t = i * 7.0;
+    Point2d p{100 + 0.3 * t + g(rng), 20 + t + g(rng)};
+    pts.push_back(p);
+    cvpts.emplace_back(float(p.x), float(p.y));
+  }
+  cv::Vec4f ref;
+  cv::fitLine(cvpts, ref, cv::DIST_L2, 0, 1e-6, 1e-6);  // total least squares reference
+  const Line start = LineThrough(pts.front(), pts.back());
+  const Line fit = RobustLineFit(pts, start, 2.0);
+  // Two points of the reference line, 300 px apart, lie on the fitted line.
+  for (double t : {0.0, 300.0}) {
+    const Point2d q{ref[2] + t * ref[0], ref[3] + t * ref[1]};
+    CHECK(std::fabs(fit.SignedDistance(q)) < 0.1);
+  }
+}
+
+TEST_CASE("RobustLineFitIgnoresAMarkerOnTheEdge") {
+  // Points on x = 50 with a run of outliers 15 px off (a lead marker pulls the crossing).
+  std::vector<Point2d> pts;
+  for (int i = 0; i < 60; ++i) pts.push_back({50.0 + (i >= 20 && i < 28 ? 15.0 : 0.0), i * 5.0});
+  const Line fit = RobustLineFit(pts, Line{1, 0, 52}, 5.0);
+  CHECK(fit.c / fit.nx == doctest::Approx(50.0).epsilon(1e-3));
+  CHECK(std::fabs(fit.ny) < 1e-3);
+}
+
+TEST_CASE("ClipHalfPlaneAreaMatchesOpenCvIntersection") {
+  // Reference: cv::intersectConvexConvex of the rectangle with a large triangle on the
+  // kept side of the line.
+  Polygon rect = RectPolygon(0, 0, 100, 80);
+  Line l = LineThrough({30, -10}, {80, 90});  // keeps the side where SignedDistance <= 0
+  Polygon clipped = ClipHalfPlane(rect, l);
+  // The kept half-plane as a large quadrilateral: the line +-1000 px along its direction,
+  // extended 1000 px against the normal.
+  const double tx = -l.ny, ty = l.nx;
+  const Point2d o{l.c * l.nx, l.c * l.ny};
+  std::vector<cv::Point2f> tri;
+  for (auto [t, d] : std::vector<std::pair<double, double>>{{-1000, 0}, {1000, 0}, {1000, -1000}, {-1000, -1000}}) {
+    tri.emplace_back(float(o.x + t * tx + d * l.nx), float(o.y + t * ty + d * l.ny));
+  }
+  std::vector<cv::Point2f> r{{0, 0}, {100, 0}, {100, 80}, {0, 80}}, inter;
+  const float ref = cv::intersectConvexConvex(r, tri, inter);
+  CHECK(Area(clipped) == doctest::Approx(ref).epsilon(1e-3));
+}
+
+TEST_CASE("BlankMaskNeedsAJumpNotAClippedPlateau") {
+  // An exactly constant outside that meets the image in a jump is a mask; a dark plateau
+  // clipped by a display window joins the image smoothly and is not.
+  testimg::Spec s;
+  s.blank_outside = RectPolygon(60, 50, 340, 310);
+  s.blank_value = 0.0f;
+  Image img = testimg::Render(s);
+  Blocks b = DownsampleBlocks(img, 4);
+  CHECK(FindBlankMask(img, b, 4).blanked);
+
+  testimg::Spec clip;  // values below the plateau + a bit clamped to the plateau level
+  Image c = testimg::Render(clip);
+  for (int y = 0; y < c.height(); ++y) for (int x = 0; x < c.width(); ++x) c.at(x, y) = std::max(c.at(x, y), 120.0f);
+  Blocks cb = DownsampleBlocks(c, 4);
+  CHECK_FALSE(FindBlankMask(c, cb, 4).blanked);
+}
+
+TEST_CASE("WorkingFactorGivesAboutTwoMillimetrePixels") {
+  Image img(2000, 1500);
+  FieldContext ctx;
+  ctx.spacing_mm = std::array<double, 2>{0.2, 0.2};
+  CHECK(WorkingFactor(img, ctx, {}) == 10);
+  ctx.spacing_mm.reset();
+  CHECK(WorkingFactor(img, ctx, {}) == 8);  // unknown spacing: ~256 px on the long side
+}

@@ -1,0 +1,255 @@
+// DetectField end to end on synthetic radiographs with exact truth (synthetic ground truth:
+// the blade lines are known by construction, field_test_images.h). Distances are compared
+// with the symmetric Hausdorff distance between the true and the measured clipped polygons.
+#include <doctest/doctest.h>
+
+#include <algorithm>
+#include <cmath>
+
+#include <opencv2/imgproc.hpp>
+
+#include "analysis/field_test_images.h"
+#include "beamtrim/field.h"
+
+using namespace beamtrim;
+using testimg::Spec;
+
+namespace {
+
+int VisibleCount(const FieldMeasurement& m) {
+  int n = 0;
+  for (const auto& s : m.sides) n += s.visible ? 1 : 0;
+  return n;
+}
+
+double Hausdorff(const FieldMeasurement& m, const Spec& s) {
+  return HausdorffDistance(m.polygon_px, testimg::TruePolygon(s), 0.5);
+}
+
+}  // namespace
+
+TEST_CASE("AxisAlignedFieldOnRawImageIsFoundToSubPixel") {
+  Spec s;
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  CHECK_FALSE(m.open);
+  CHECK(VisibleCount(m) == 4);
+  CHECK(Hausdorff(m, s) < 0.3);
+  CHECK(std::fabs(m.rotation_deg) < 0.2);
+  // Polygon area against an independent implementation (cv::contourArea, Green's formula).
+  std::vector<cv::Point2f> c;
+  for (const Point2d& p : m.polygon_px) c.emplace_back(float(p.x), float(p.y));
+  CHECK(m.area_px == doctest::Approx(cv::contourArea(c)).epsilon(1e-4));
+  CHECK(m.area_mm2.has_value());
+  CHECK(*m.area_mm2 == doctest::Approx(m.area_px * 0.25));
+  // Contrast: open / blocked = 1 / 0.08 in a raw image (synthetic ground truth).
+  CHECK(m.side(Side::kLeft).contrast_ratio == doctest::Approx(12.5).epsilon(0.1));
+  // 10-90 % of a 4 px linear ramp is 3.2 px.
+  REQUIRE(m.side(Side::kTop).penumbra_px.has_value());
+  CHECK(*m.side(Side::kTop).penumbra_px == doctest::Approx(3.2).epsilon(0.25));
+}
+
+TEST_CASE("RotatedFieldsAreFoundAtTheirAngle") {
+  for (double angle : {7.0, -20.0, 33.0, 44.0, -44.5}) {
+    Spec s;
+    s.angle_deg = angle;
+    s.half = {90, 100, 70, 80};
+    s.noise = 0.01;
+    s.seed = static_cast<unsigned>(angle + 100);
+    FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+    CAPTURE(angle);
+    CHECK(VisibleCount(m) == 4);
+    CHECK(Hausdorff(m, s) < 1.0);
+    double d = std::fmod(m.rotation_deg - angle + 405.0, 90.0) - 45.0;
+    CHECK(std::fabs(d) < 0.3);
+  }
+}
+
+TEST_CASE("SidesAreNamedInTheFieldFrame") {
+  // Rotated 30 degrees clockwise: the left blade's outward normal still points mostly to -x.
+  Spec s;
+  s.angle_deg = 30;
+  s.half = {60, 120, 90, 70};
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  REQUIRE(m.side(Side::kLeft).line_px.has_value());
+  const auto lines = testimg::SideLines(s);
+  for (Side side : kAllSides) {
+    const auto& seg = m.side(side).line_px;
+    REQUIRE(seg.has_value());
+    const Line& truth = lines[static_cast<int>(side)];
+    CHECK(std::fabs(truth.SignedDistance(seg->a)) < 0.5);
+    CHECK(std::fabs(truth.SignedDistance(seg->b)) < 0.5);
+  }
+}
+
+TEST_CASE("ProcessedImageWithHeelAndScatterSlope") {
+  Spec s;
+  s.processed = true;
+  s.heel = 0.3;
+  s.plateau_slope = 0.1;
+  s.noise = 0.02;
+  s.blobs = {{200, 180, 70, 50, 0.3}};
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(false));
+  CHECK(VisibleCount(m) == 4);
+  CHECK(Hausdorff(m, s) < 1.0);
+}
+
+TEST_CASE("OpenFieldReportsNoBladesAndTheImageRectangle") {
+  Spec s;
+  s.half = {1000, 1000, 1000, 1000};
+  s.blobs = {{200, 180, 120, 100, 0.25}, {200, 180, 30, 80, 0.5}};
+  s.noise = 0.01;
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  CHECK(m.open);
+  CHECK(VisibleCount(m) == 0);
+  CHECK(m.area_px == doctest::Approx(400.0 * 360.0));
+  for (const auto& side : m.sides) CHECK_FALSE(side.reason.empty());
+  CHECK(m.blanked_or_cropped_sides.empty());
+}
+
+TEST_CASE("OneToFourBladesOutsideTheImage") {
+  for (int outside = 0; outside <= 4; ++outside) {
+    Spec s;
+    s.noise = 0.01;
+    s.blobs = {{200, 180, 60, 40, 0.4}};
+    for (int i = 0; i < outside; ++i) s.half[i] = 1000;
+    FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+    CAPTURE(outside);
+    CHECK(VisibleCount(m) == 4 - outside);
+    for (int i = 0; i < 4; ++i) CHECK(m.sides[i].visible == (i >= outside));
+    CHECK(Hausdorff(m, s) < 1.0);
+  }
+}
+
+TEST_CASE("TinyFieldIsFound") {
+  Spec s;
+  s.half = {12, 12, 10, 10};  // 12 x 10 mm at 0.5 mm pixels
+  s.penumbra = 2.0;
+  s.noise = 0.01;
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  CHECK(VisibleCount(m) == 4);
+  CHECK(Hausdorff(m, s) < 1.0);
+}
+
+TEST_CASE("StraightAnatomyEdgeIsNotABlade") {
+  // Open field with a forearm-like band: strong straight edges with direct exposure on one
+  // side and tissue (with a bone inside) on the other, reaching top to bottom.
+  Spec s;
+  s.half = {1000, 1000, 1000, 1000};
+  s.bands = {{140, 260, 0.15}, {185, 215, 0.5}};
+  s.noise = 0.01;
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  CHECK(VisibleCount(m) == 0);
+  CHECK(m.open);
+}
+
+TEST_CASE("AnatomyEdgeInsideACollimatedFieldLeavesTheBladesAlone") {
+  Spec s;
+  s.bands = {{150, 230, 0.2}};
+  s.noise = 0.01;
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  CHECK(VisibleCount(m) == 4);
+  CHECK(Hausdorff(m, s) < 1.0);
+}
+
+TEST_CASE("LeadMarkerOnAnEdgeDoesNotMoveIt") {
+  Spec s;
+  s.blobs = {{200 - 120, 150, 8, 14, 0.02}};  // on the left edge, inside and outside
+  s.noise = 0.01;
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  CHECK(VisibleCount(m) == 4);
+  CHECK(Hausdorff(m, s) < 1.0);
+}
+
+TEST_CASE("BlankedOutsideIsReportedAndHiddenSidesAreNotAssessable") {
+  // Mask tighter than the field on the left and right: those blade edges are hidden.
+  Spec s;
+  s.half = {150, 150, 100, 90};
+  s.blank_outside = RectPolygon(80, 0, 320, 360);
+  s.blank_value = 0.0f;
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  CHECK(m.blanked);
+  CHECK(m.side(Side::kTop).visible);
+  CHECK(m.side(Side::kBottom).visible);
+  CHECK_FALSE(m.side(Side::kLeft).visible);
+  CHECK_FALSE(m.side(Side::kRight).visible);
+  const auto& nas = m.blanked_or_cropped_sides;
+  CHECK(std::count(nas.begin(), nas.end(), Side::kLeft) == 1);
+  CHECK(std::count(nas.begin(), nas.end(), Side::kRight) == 1);
+  CHECK_FALSE(m.side(Side::kLeft).reason.empty());
+}
+
+TEST_CASE("CroppedImageIsReportedFromTheReceptorSize") {
+  // Image 200 x 180 mm from a 430 x 430 mm receptor, field running off the left and right.
+  Spec s;
+  s.half = {1000, 1000, 100, 90};
+  FieldContext ctx = testimg::Context(true);
+  ctx.receptor_mm = std::array<double, 2>{430.0, 430.0};
+  FieldMeasurement m = DetectField(testimg::Render(s), ctx);
+  CHECK(m.cropped);
+  CHECK(m.side(Side::kTop).visible);
+  const auto& nas = m.blanked_or_cropped_sides;
+  CHECK(std::count(nas.begin(), nas.end(), Side::kLeft) == 1);
+  CHECK(std::count(nas.begin(), nas.end(), Side::kRight) == 1);
+  CHECK(std::count(nas.begin(), nas.end(), Side::kTop) == 0);
+  // Same image, receptor the size of the image: not cropped, sides simply open.
+  ctx.receptor_mm = std::array<double, 2>{180.0, 200.0};
+  FieldMeasurement n = DetectField(testimg::Render(s), ctx);
+  CHECK_FALSE(n.cropped);
+  CHECK(n.blanked_or_cropped_sides.empty());
+}
+
+TEST_CASE("DoubleExposureIsFlagged") {
+  // Two fields on one plate: render both and keep the brighter pixel of the two exposures
+  // (each blocks the other's area only by its own blades).
+  Spec a;
+  a.width = 500;
+  a.cx = 130;
+  a.half = {90, 90, 120, 120};
+  Spec b = a;
+  b.cx = 370;
+  Image ia = testimg::Render(a), ib = testimg::Render(b);
+  for (int y = 0; y < ia.height(); ++y) for (int x = 0; x < ia.width(); ++x) ia.at(x, y) += ib.at(x, y);
+  FieldMeasurement m = DetectField(ia, testimg::Context(true));
+  CHECK(m.double_exposure);
+  CHECK_FALSE(m.open);
+}
+
+TEST_CASE("SingleFieldIsNotADoubleExposure") {
+  Spec s;
+  s.blobs = {{200, 180, 60, 40, 0.4}};
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  CHECK_FALSE(m.double_exposure);
+}
+
+TEST_CASE("QuarterMaximumEdgeOnLinearImageLiesOutsideTheHalfPoint") {
+  // 21 CFR 1020.30(b). Blocked 0 (no leakage), 10 px ramp: the quarter level is 2.5 px
+  // outward of the 50 % point on every side, so the field grows by 2.5 px per side.
+  Spec s;
+  s.blocked = 0.0;
+  s.penumbra = 10.0;
+  FieldOptions q;
+  q.edge_definition = EdgeDefinition::kQuarterMaximum;
+  Image img = testimg::Render(s);
+  FieldMeasurement half = DetectField(img, testimg::Context(true));
+  FieldMeasurement quarter = DetectField(img, testimg::Context(true), q);
+  CHECK(quarter.edge_definition == EdgeDefinition::kQuarterMaximum);
+  const double w = s.half[0] + s.half[1], h = s.half[2] + s.half[3];
+  CHECK(half.area_px == doctest::Approx(w * h).epsilon(0.01));
+  CHECK(quarter.area_px == doctest::Approx((w + 5) * (h + 5)).epsilon(0.01));
+  // Not linear: falls back to the 50 % transition and says so.
+  FieldMeasurement fb = DetectField(img, testimg::Context(false), q);
+  CHECK(fb.edge_definition == EdgeDefinition::kHalfTransition);
+  CHECK_FALSE(fb.notes.empty());
+}
+
+TEST_CASE("TooSmallOrFlatImagesDoNotCrash") {
+  Image tiny(8, 8, 1.0f);
+  FieldMeasurement m = DetectField(tiny, {});
+  CHECK(m.open);
+  Image flat(200, 200, 5.0f);
+  FieldMeasurement f = DetectField(flat, testimg::Context(true));
+  CHECK(f.open);
+  Image zeros(100, 120, 0.0f);
+  FieldMeasurement z = DetectField(zeros, testimg::Context(true));
+  CHECK(z.open);
+}
