@@ -7,6 +7,7 @@
 #include <dcmtk/dcmjpeg/djencode.h>
 #include <dcmtk/dcmjpls/djdecode.h>
 #include <dcmtk/dcmjpls/djencode.h>
+#include <dcmtk/oflog/oflog.h>
 
 #include "beamtrim/dicom_writer.h"
 #include "dicom/dicom_internal.h"
@@ -18,12 +19,20 @@ void RegisterDicomCodecs() {
   // decodes, is not safe, so do it exactly once.
   static std::once_flag once;
   std::call_once(once, [] {
+    // DCMTK logs parse problems to stderr; beamtrim reports them as Errors instead, so only
+    // fatal messages remain visible (this is a process-wide DCMTK setting).
+    OFLog::configure(OFLogger::FATAL_LOG_LEVEL);
     DcmRLEDecoderRegistration::registerCodecs();
     DJDecoderRegistration::registerCodecs();
     DJLSDecoderRegistration::registerCodecs();
     DcmRLEEncoderRegistration::registerCodecs();
-    // Monochrome input keeps its colour model; UIDs are handled by the writer itself.
-    DJEncoderRegistration::registerCodecs(ECC_monochrome, EUC_never);
+    // Lossy JPEG of grey images: DCMTK scales the pixel min..max onto the JPEG sample range;
+    // pUseModalityRescale makes it record that scaling as Rescale Slope/Intercept, so the
+    // modality values survive (without it the offset is silently lost). UIDs stay as given.
+    DJEncoderRegistration::registerCodecs(ECC_lossyYCbCr, EUC_never, OFFalse, 0, 0, 0, OFTrue,
+                                          ESS_422, OFTrue, OFFalse, 0, 0, 0.0, 0.0, 0, 0, 0, 0,
+                                          /*pUsePixelValues=*/OFTrue,
+                                          /*pUseModalityRescale=*/OFTrue);
     DJLSEncoderRegistration::registerCodecs(0, 0, 0, 0, OFTrue, 0, OFTrue, EJLSUC_never);
   });
 }

@@ -29,6 +29,10 @@ std::optional<std::array<double, 2>> GetPair(DcmItem& item, const DcmTagKey& key
 // attributes stay at their defaults; structural checks are the reader's job.
 RadiographHeader ExtractHeader(DcmDataset& dataset);
 
+// Refuses files with more than `max_items` Item tags (FFFE,E000): DCMTK parses nested
+// sequences recursively, and the item count bounds the nesting depth (nesting_guard.cpp).
+Status CheckItemCount(const std::string& file, size_t max_items);
+
 // One decoded JPEG 2000 component.
 struct J2kImage {
   int width = 0;

@@ -134,6 +134,7 @@ Status WriteDicomdir(const fs::path& folder, const std::vector<fs::path>& files)
 namespace {
 
 struct Walker {
+  static constexpr int kMaxDepth = 64;
   std::set<fs::path> files;
   std::vector<Error> problems;
 
@@ -150,23 +151,31 @@ struct Walker {
     }
   }
 
-  void Walk(const fs::path& root) {
-    std::error_code ec;
-    // skip_permission_denied keeps going past unreadable folders; symlinked folders are not
-    // followed, so link loops cannot recurse for ever.
-    fs::recursive_directory_iterator it(root, fs::directory_options::skip_permission_denied, ec), end;
-    if (ec) {
-      problems.push_back(MakeError(ErrorKind::kUnreadable, root.string(), ec.message()));
+  // Manual recursion so that each unreadable folder becomes a problem and the walk goes on.
+  // Symlinked folders are not entered, so link loops cannot recurse for ever.
+  void Walk(const fs::path& dir, int depth) {
+    if (depth > kMaxDepth) {
+      problems.push_back(MakeError(ErrorKind::kUnreadable, dir.string(), "folders nested too deep"));
       return;
     }
+    std::error_code ec;
+    fs::directory_iterator it(dir, ec), end;
+    if (ec) {
+      problems.push_back(MakeError(ErrorKind::kUnreadable, dir.string(), ec.message()));
+      return;
+    }
+    std::vector<fs::path> subdirs;
     for (; it != end; it.increment(ec)) {
       if (ec) {
-        problems.push_back(MakeError(ErrorKind::kUnreadable, root.string(), ec.message()));
+        problems.push_back(MakeError(ErrorKind::kUnreadable, dir.string(), ec.message()));
         break;
       }
       std::error_code fe;
-      if (it->is_regular_file(fe)) AddFile(it->path());
+      if (it->is_symlink(fe) && it->is_directory(fe)) continue;
+      if (it->is_directory(fe)) subdirs.push_back(it->path());
+      else if (it->is_regular_file(fe)) AddFile(it->path());
     }
+    for (const fs::path& sub : subdirs) Walk(sub, depth + 1);
   }
 
   void Add(const fs::path& p) {
@@ -175,7 +184,7 @@ struct Walker {
     if (ec || !fs::exists(st)) {
       problems.push_back(MakeError(ErrorKind::kNotFound, p.string(), "no such file or folder"));
     } else if (fs::is_directory(st)) {
-      Walk(p);
+      Walk(p, 0);
     } else if (fs::is_regular_file(st)) {
       AddFile(p);
     } else {

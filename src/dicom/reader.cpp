@@ -23,6 +23,10 @@ namespace {
 // lying length field cannot make DCMTK allocate it during loadFile.
 constexpr Uint32 kMaxReadLength = 64 * 1024;
 
+// Item tags allowed before DCMTK parses a file: a radiograph holds a few dozen, plus one per
+// compressed fragment; 20 000 nested levels exhaust an 8 MiB stack (nesting_guard.cpp).
+constexpr size_t kMaxItems = 5000;
+
 struct Context {
   std::string file;
   int64_t file_size = 0;
@@ -152,13 +156,15 @@ Stored UnpackNative(const std::vector<uint8_t>& buf, const RadiographHeader& h) 
   return out;
 }
 
-Status CheckNativeLength(const Context& c, DcmElement& pixel, const RadiographHeader& h) {
+Status CheckNativeLength(const Context& c, DcmElement& pixel, const RadiographHeader& h,
+                         bool deflated) {
   // PS3.5 8.1.1: native pixel data holds Rows x Columns x Samples x Bits Allocated / 8 per
   // frame; the value cannot be larger than the file it lives in.
   uint64_t frame = static_cast<uint64_t>(h.rows) * h.columns * (h.bits_allocated / 8);
   uint64_t need = frame * static_cast<uint64_t>(h.number_of_frames);
   uint64_t have = pixel.getLength();
-  if (have < need || have > static_cast<uint64_t>(c.file_size)) {
+  // A deflated file is smaller than its inflated data set, so only the length test applies.
+  if (have < need || (!deflated && have > static_cast<uint64_t>(c.file_size))) {
     return Fail(c, ErrorKind::kMalformed, DCM_PixelData,
                 "holds " + std::to_string(have) + " bytes, but rows x columns x bits allocated x "
                 "frames needs " + std::to_string(need) + " and the file has " +
@@ -170,7 +176,7 @@ Status CheckNativeLength(const Context& c, DcmElement& pixel, const RadiographHe
 Result<Stored> DecodeWithDcmtk(const Context& c, DcmDataset& ds, DcmElement& pixel,
                                const RadiographHeader& h, bool encapsulated) {
   if (!encapsulated) {
-    Status s = CheckNativeLength(c, pixel, h);
+    Status s = CheckNativeLength(c, pixel, h, h.transfer_syntax_uid == "1.2.840.10008.1.2.1.99");
     if (!s) return s.error();
   }
   uint64_t frame = static_cast<uint64_t>(h.rows) * h.columns * (h.bits_allocated / 8);
@@ -248,29 +254,40 @@ Result<Stored> DecodeJpeg2000(const Context& c, DcmElement& pixel, const Radiogr
   return std::move(img->values);
 }
 
+// Direction of the stored scale (docs/dicom.md "Pixel convention"). Pixel Intensity
+// Relationship Sign (0028,1041) decides when present: -1 means higher values = less X-ray
+// intensity (PS3.3 DX Image module). Without it: MONOCHROME1 shows low values white
+// (PS3.3 C.7.6.3.1.2), white = little radiation, so larger already means more radiation;
+// MONOCHROME2 linear or FOR PROCESSING data are detector signal, larger = more; other
+// MONOCHROME2 images are display-ready with bone bright, so they are inverted.
+bool Inverted(const RadiographHeader& h) {
+  if (h.pixel_intensity_relationship_sign != 0) return h.pixel_intensity_relationship_sign < 0;
+  if (h.photometric_interpretation == "MONOCHROME1") return false;
+  return !(h.pixel_intensity_relationship == "LIN" || h.presentation_intent_type == "FOR PROCESSING");
+}
+
 void Normalise(const Stored& s, const RadiographHeader& h, Image& out) {
-  // Modality value m = slope * stored + intercept (PS3.3 C.11.1.1.2). MONOCHROME1 shows
-  // low values bright (PS3.3 C.7.6.3.1.2), i.e. more radiation = lower value, so invert
-  // within the representable modality range: out = m_max - m >= 0 (docs/dicom.md).
+  // Modality value m = slope * stored + intercept (PS3.3 C.11.1.1.2). An inverted scale is
+  // mirrored within the representable modality range [m_lo, m_hi]: out = m_lo + m_hi - m,
+  // which keeps the range (and keeps values >= 0 when m_lo >= 0).
   out = Image(h.columns, h.rows);
   double lo = h.pixel_representation == 1 ? -std::ldexp(1.0, h.bits_stored - 1) : 0.0;
   double hi = h.pixel_representation == 1 ? std::ldexp(1.0, h.bits_stored - 1) - 1.0
                                           : std::ldexp(1.0, h.bits_stored) - 1.0;
-  double m_max = std::max(h.rescale_slope * lo, h.rescale_slope * hi) + h.rescale_intercept;
-  bool invert = h.photometric_interpretation == "MONOCHROME1";
+  double mirror = h.rescale_slope * (lo + hi) + 2.0 * h.rescale_intercept;
+  bool invert = Inverted(h);
   float* px = out.data();
   for (size_t i = 0; i < s.size(); ++i) {
     double m = h.rescale_slope * s[i] + h.rescale_intercept;
-    px[i] = static_cast<float>(invert ? std::max(0.0, m_max - m) : m);
+    px[i] = static_cast<float>(invert ? mirror - m : m);
   }
 }
 
 bool IsLinear(const RadiographHeader& h) {
-  // See docs/dicom.md "Linearity": LIN declared, or FOR PROCESSING without another
-  // declared relationship; MONOCHROME1 or a negative sign means an inverted scale whose
-  // zero point is unknown, so the values are not proportional to exposure.
-  if (h.photometric_interpretation != "MONOCHROME2") return false;
-  if (h.pixel_intensity_relationship_sign < 0) return false;
+  // See docs/dicom.md "Linearity": LIN declared, or FOR PROCESSING without another declared
+  // relationship, and a scale that is not inverted (a mirrored scale has an unknown zero,
+  // so it is not proportional to exposure).
+  if (Inverted(h)) return false;
   if (h.pixel_intensity_relationship == "LIN") return true;
   return h.pixel_intensity_relationship.empty() && h.presentation_intent_type == "FOR PROCESSING";
 }
@@ -306,6 +323,10 @@ Result<Radiograph> ReadChecked(const Context& c) {
   if (Status s = CheckKind(c, r.header, r.notes); !s) return s.error();
   if (Status s = CheckGeometry(c, r.header); !s) return s.error();
   r.linear = IsLinear(r.header);
+  if (r.header.pixel_intensity_relationship_sign == 0) {
+    r.notes.push_back(std::string("pixel direction inferred from the photometric interpretation: ") +
+                      (Inverted(r.header) ? "inverted" : "kept"));
+  }
   if (c.options.header_only) return r;
   if (Status s = DecodePixels(c, ds, r); !s) return s.error();
   if (r.header.number_of_frames > 1) {
@@ -333,6 +354,7 @@ Result<Radiograph> ReadRadiograph(const fs::path& file, const ReadOptions& optio
     return MakeError(ErrorKind::kNotDicom, c.file,
                      "no 'DICM' marker at byte 128 and no data set start at byte 0");
   }
+  if (Status s = CheckItemCount(c.file, kMaxItems); !s) return s.error();
   try {
     return ReadChecked(c);
   } catch (const std::bad_alloc&) {

@@ -184,6 +184,11 @@ Result<Layout> CheckPixels(const std::string& file, const RadiographHeader& h,
     return bad("JPEG baseline needs bits stored <= 8", DCM_BitsStored);
   if (syntax == TransferSyntax::kJpegExtended && l.bits_stored > 12)
     return bad("JPEG extended needs bits stored <= 12", DCM_BitsStored);
+  // DCMTK 3.6.7's bundled CharLS aborts on signed input (an assertion, not an error), so
+  // signed data is refused here rather than crashing the process.
+  if (l.signed_pixels && (syntax == TransferSyntax::kJpegLsLossless ||
+                          syntax == TransferSyntax::kJpegLsNearLossless))
+    return bad("JPEG-LS writing supports unsigned pixels only", DCM_PixelRepresentation);
   int64_t lo = l.signed_pixels ? -(int64_t{1} << (l.bits_stored - 1)) : 0;
   int64_t hi = l.signed_pixels ? (int64_t{1} << (l.bits_stored - 1)) - 1 : (int64_t{1} << l.bits_stored) - 1;
   for (int32_t v : p.values) {
