@@ -68,8 +68,12 @@ struct QcMarkerOptions {
   // Smallest and largest marker, mm^2 at the detector plane.
   double min_area_mm2 = 1.5;
   double max_area_mm2 = 2500.0;
-  // Background estimate: grey-level closing with a square this wide, larger than any marker.
+  // Background estimate: grey-level closing with a square larger than any marker: at least
+  // this wide, and widened to this fraction of the field's shorter side (a wire laid along an
+  // edge must be shorter than the window), at most the maximum.
   double background_window_mm = 40.0;
+  double window_field_fraction = 0.8;
+  double max_background_window_mm = 250.0;
   // A pixel is marker when its log signal lies this far below the background, as a fraction
   // of the field contrast (open vs blocked, log domain).
   double relative_threshold = 0.12;

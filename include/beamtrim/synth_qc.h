@@ -44,7 +44,7 @@ struct QcExposureSpec {
   std::array<bool, 4> marker_present = {true, true, true, true};  // kEdges only
   double coin_diameter_mm = 20.0;
   double rod_diameter_mm = 1.0;       // clip and wire
-  double marker_mu_per_mm = 0.25;     // linear attenuation of the metal at the beam's energy
+  double marker_mu_per_mm = 1.5;      // linear attenuation of the metal (steel, copper ~60 keV)
   double coin_thickness_mm = 1.5;
   double penumbra_mm = 2.0;           // 10-90 % width of the blade shadow
   double blocked_fraction = 0.06;     // signal behind the blades / open field (scatter, leakage)
@@ -73,6 +73,11 @@ struct QcExposure {
 };
 
 QcExposure MakeQcExposure(const QcExposureSpec& spec);
+
+// A varied spec drawn deterministically from (seed, index): SID 1000 / 1150 / 1800 mm, field
+// size and position, offsets per edge up to +-15 mm, marker kind and layout, penumbra, noise,
+// heel, flat attenuator, raw or processed (about one in four).
+QcExposureSpec DrawQcExposureSpec(uint64_t seed, int index);
 
 // Where the edge lies, outward from the receptor centre in mm, under an edge definition applied
 // to the noise-free image of `spec` (the geometric edge moved by the penumbra model).

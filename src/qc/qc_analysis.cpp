@@ -5,6 +5,8 @@
 #include <exception>
 #include <sstream>
 
+#include <opencv2/core.hpp>
+
 #include "qc/qc_internal.h"
 
 namespace beamtrim {
@@ -44,6 +46,51 @@ Line ToLine(const EdgeFit& fit, Side side, int width, int height) {
   return LineThrough({0.0, fit.At(0.0)}, {double(width), fit.At(width)});
 }
 
+// A disc over a field corner: the part inside the field is lost in the background estimate
+// (the dark region beyond both blades wraps around it), so the depth-weighted centroid is
+// pulled outward. The outline's vertices still lie on the disc's rim: fit a circle to them
+// (algebraic least squares, then once more without the vertices more than a pixel off).
+bool FitCircle(const std::vector<Point2d>& points, Point2d* centre, double* radius) {
+  std::vector<Point2d> used = points;
+  for (int round = 0; round < 2; ++round) {
+    if (used.size() < 6) return false;
+    cv::Mat a(static_cast<int>(used.size()), 3, CV_64F), b(static_cast<int>(used.size()), 1, CV_64F);
+    for (size_t i = 0; i < used.size(); ++i) {
+      a.at<double>(i, 0) = used[i].x;
+      a.at<double>(i, 1) = used[i].y;
+      a.at<double>(i, 2) = 1.0;
+      b.at<double>(i, 0) = -(used[i].x * used[i].x + used[i].y * used[i].y);
+    }
+    cv::Mat x;
+    if (!cv::solve(a, b, x, cv::DECOMP_SVD)) return false;
+    centre->x = -0.5 * x.at<double>(0);
+    centre->y = -0.5 * x.at<double>(1);
+    double r2 = centre->x * centre->x + centre->y * centre->y - x.at<double>(2);
+    if (r2 <= 0.0) return false;
+    *radius = std::sqrt(r2);
+    std::vector<Point2d> kept;
+    for (const Point2d& p : used) {
+      if (std::fabs(std::hypot(p.x - centre->x, p.y - centre->y) - *radius) <= 1.0) kept.push_back(p);
+    }
+    if (kept.size() == used.size()) break;
+    used = std::move(kept);
+  }
+  return true;
+}
+
+void RefineCornerMarker(QcMarker* m) {
+  Point2d centre;
+  double radius = 0.0;
+  if (!FitCircle(m->outline_px, &centre, &radius)) return;
+  // Only a disc: most outline vertices must lie on the fitted rim.
+  int on_rim = 0;
+  for (const Point2d& p : m->outline_px) {
+    if (std::fabs(std::hypot(p.x - centre.x, p.y - centre.y) - radius) <= 1.0) ++on_rim;
+  }
+  if (radius < 2.0 || on_rim < 0.7 * m->outline_px.size()) return;
+  m->centre_px = centre;
+}
+
 void ClassifyMarkers(const FieldEdges& field, std::vector<QcMarker>* markers) {
   double cx = 0.5 * (field.coarse[0] + field.coarse[1]), cy = 0.5 * (field.coarse[2] + field.coarse[3]);
   double hw = 0.5 * (field.coarse[1] - field.coarse[0]), hh = 0.5 * (field.coarse[3] - field.coarse[2]);
@@ -55,6 +102,7 @@ void ClassifyMarkers(const FieldEdges& field, std::vector<QcMarker>* markers) {
     if (near_x && near_y && !m.elongated) {
       m.placement = QcMarkerPlacement::kCorner;
       m.sides = {sx, sy};
+      RefineCornerMarker(&m);
     } else if (near_x && std::fabs(v) <= kNearEdge) {
       m.placement = QcMarkerPlacement::kEdge;
       m.sides = {sx};

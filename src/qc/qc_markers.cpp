@@ -102,6 +102,28 @@ QcMarker Describe(const WorkingImages& work, const cv::Mat& labels, int label,
   return m;
 }
 
+// The shorter side of the bounding box of the largest bright region (Otsu on a reduced
+// copy): markers are small holes in it and do not change its box.
+double ShorterFieldSideMm(const cv::Mat& log_smooth, double pixel_mm) {
+  double scale = std::min(1.0, 400.0 / std::max(log_smooth.rows, log_smooth.cols));
+  cv::Mat small, scaled, bright;
+  cv::resize(log_smooth, small, cv::Size(), scale, scale, cv::INTER_AREA);
+  double lo = 0.0, hi = 0.0;
+  cv::minMaxLoc(small, &lo, &hi);
+  if (hi <= lo) return 0.0;
+  small.convertTo(scaled, CV_8U, 255.0 / (hi - lo), -255.0 * lo / (hi - lo));
+  cv::threshold(scaled, bright, 0, 255, cv::THRESH_BINARY | cv::THRESH_OTSU);
+  cv::Mat labels, stats, centroids;
+  int n = cv::connectedComponentsWithStats(bright, labels, stats, centroids, 8, CV_32S);
+  int best = 0;
+  for (int i = 1; i < n; ++i) {
+    if (best == 0 || stats.at<int>(i, cv::CC_STAT_AREA) > stats.at<int>(best, cv::CC_STAT_AREA)) best = i;
+  }
+  if (best == 0) return 0.0;
+  int side = std::min(stats.at<int>(best, cv::CC_STAT_WIDTH), stats.at<int>(best, cv::CC_STAT_HEIGHT));
+  return side / scale * pixel_mm;
+}
+
 }  // namespace
 
 WorkingImages MakeWorkingImages(const Image& image, bool linear, std::array<double, 2> spacing_mm,
@@ -118,10 +140,20 @@ WorkingImages MakeWorkingImages(const Image& image, bool linear, std::array<doub
   }
   cv::GaussianBlur(log_domain, work.log_smooth, cv::Size(0, 0), 1.0);
   double pixel = std::min(spacing_mm[0], spacing_mm[1]);
-  int window = static_cast<int>(std::lround(options.background_window_mm / pixel)) | 1;
+  // A marker lying along a blade edge joins the dark region beyond it, and the closing keeps
+  // it unless the window is longer than the marker: scale the window with the field.
+  double window_mm = std::max(options.background_window_mm,
+                              options.window_field_fraction * ShorterFieldSideMm(work.log_smooth, pixel));
+  window_mm = std::min(window_mm, options.max_background_window_mm);
+  int window = static_cast<int>(std::lround(window_mm / pixel)) | 1;
   window = std::max(3, std::min(window, 2 * std::max(image.width(), image.height()) + 1));
   cv::Mat kernel = cv::getStructuringElement(cv::MORPH_RECT, cv::Size(window, window));
-  cv::morphologyEx(work.log_smooth, work.background, cv::MORPH_CLOSE, kernel);
+  // Replicated margins let the blocked strip between a blade and the receptor border stay
+  // dark even when it is narrower than the window.
+  cv::Mat padded, closed;
+  cv::copyMakeBorder(work.log_smooth, padded, window, window, window, window, cv::BORDER_REPLICATE);
+  cv::morphologyEx(padded, closed, cv::MORPH_CLOSE, kernel);
+  work.background = closed(cv::Rect(window, window, image.width(), image.height())).clone();
   work.depth = work.background - work.log_smooth;
   FieldLevels(&work);
   NoiseOfDepth(&work);

@@ -231,3 +231,36 @@ QcExposure MakeQcExposure(const QcExposureSpec& spec) {
 }
 
 }  // namespace beamtrim
+
+namespace beamtrim {
+
+QcExposureSpec DrawQcExposureSpec(uint64_t seed, int index) {
+  std::mt19937_64 rng(seed * 0x9E3779B97F4A7C15ull + static_cast<uint64_t>(index) * 7919u + 17u);
+  auto uniform = [&](double lo, double hi) { return std::uniform_real_distribution<double>(lo, hi)(rng); };
+  auto pick = [&](int n) { return static_cast<int>(std::uniform_int_distribution<int>(0, n - 1)(rng)); };
+  QcExposureSpec spec;
+  spec.seed = seed * 1000003u + static_cast<uint64_t>(index);
+  const double sids[3] = {1000.0, 1150.0, 1800.0};
+  spec.sid_mm = sids[pick(3)];
+  spec.pixel_mm = pick(2) == 0 ? 0.25 : 0.3;
+  spec.width = static_cast<int>(350.0 / spec.pixel_mm);
+  spec.height = static_cast<int>(430.0 / spec.pixel_mm);
+  // Field a bit smaller than the receptor, not always centred.
+  double half_w = uniform(90.0, 130.0), half_h = uniform(110.0, 160.0);
+  double shift_x = uniform(-8.0, 8.0), shift_y = uniform(-8.0, 8.0);
+  spec.xray_mm = {half_w - shift_x, half_w + shift_x, half_h - shift_y, half_h + shift_y};
+  for (double& o : spec.offset_mm) o = uniform(-15.0, 15.0);
+  spec.kind = static_cast<QcMarkerKind>(pick(3));
+  spec.layout = pick(4) == 0 ? QcMarkerLayout::kCorners : QcMarkerLayout::kEdges;
+  spec.coin_diameter_mm = uniform(16.0, 26.0);
+  spec.rod_diameter_mm = uniform(0.8, 1.5);
+  spec.penumbra_mm = uniform(0.8, 3.0);
+  spec.blocked_fraction = uniform(0.02, 0.12);
+  spec.phantom_transmission = pick(2) == 0 ? 1.0 : uniform(0.3, 0.8);
+  spec.heel = uniform(0.0, 0.2);
+  spec.noise_rel = uniform(0.005, 0.02);
+  spec.linear_raw = pick(4) != 0;
+  return spec;
+}
+
+}  // namespace beamtrim
