@@ -12,19 +12,24 @@
 namespace beamtrim::dicom_internal {
 namespace {
 
-// OpenJPEG reports through callbacks; collect the first error text for the Error reason.
+// OpenJPEG reports through callbacks; keep the first error and warning for the reason.
 struct Messages {
   std::string error;
+  std::string warning;
 };
 
+std::string Trimmed(const char* msg) {
+  std::string s = msg;
+  while (!s.empty() && (s.back() == '\n' || s.back() == ' ')) s.pop_back();
+  return s;
+}
 void OnError(const char* msg, void* data) {
   auto* m = static_cast<Messages*>(data);
-  if (m->error.empty()) {
-    m->error = msg;
-    while (!m->error.empty() && (m->error.back() == '\n' || m->error.back() == ' ')) {
-      m->error.pop_back();
-    }
-  }
+  if (m->error.empty()) m->error = Trimmed(msg);
+}
+void OnWarning(const char* msg, void* data) {
+  auto* m = static_cast<Messages*>(data);
+  if (m->warning.empty()) m->warning = Trimmed(msg);
 }
 void OnQuiet(const char*, void*) {}
 
@@ -104,8 +109,11 @@ std::optional<OPJ_CODEC_FORMAT> DetectFormat(const uint8_t* d, size_t n) {
   return std::nullopt;
 }
 
+// OpenJPEG's first error, else its first warning, explains a failure best.
 std::string Reason(const Messages& m, const char* fallback) {
-  return m.error.empty() ? std::string(fallback) : std::string(fallback) + " (" + m.error + ")";
+  const std::string& detail = m.error.empty() ? m.warning : m.error;
+  return detail.empty() ? std::string(fallback)
+                        : std::string(fallback) + " (OpenJPEG: " + detail + ")";
 }
 
 }  // namespace
@@ -117,7 +125,7 @@ Result<J2kImage> DecodeJ2k(const uint8_t* data, size_t size, int64_t max_pixels)
   CodecPtr codec(opj_create_decompress(*format));
   Messages msgs;
   opj_set_error_handler(codec.get(), OnError, &msgs);
-  opj_set_warning_handler(codec.get(), OnQuiet, &msgs);
+  opj_set_warning_handler(codec.get(), OnWarning, &msgs);
   opj_set_info_handler(codec.get(), OnQuiet, &msgs);
   opj_dparameters_t params;
   opj_set_default_decoder_parameters(&params);
@@ -200,7 +208,7 @@ Result<std::vector<uint8_t>> EncodeJ2k(const std::vector<int32_t>& values, int w
   CodecPtr codec(opj_create_compress(OPJ_CODEC_J2K));
   Messages msgs;
   opj_set_error_handler(codec.get(), OnError, &msgs);
-  opj_set_warning_handler(codec.get(), OnQuiet, &msgs);
+  opj_set_warning_handler(codec.get(), OnWarning, &msgs);
   opj_set_info_handler(codec.get(), OnQuiet, &msgs);
   if (!opj_setup_encoder(codec.get(), &params, image.get())) {
     return MakeError(kind, "", Reason(msgs, "JPEG 2000 encoder setup failed"));

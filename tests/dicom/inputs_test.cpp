@@ -104,3 +104,18 @@ TEST_CASE("LooksLikeDicomRecognisesPart10Files") {
   CHECK_FALSE(LooksLikeDicom(dir / "short.bin"));
   CHECK_FALSE(LooksLikeDicom(dir / "absent"));
 }
+
+TEST_CASE("DicomdirFilesCopiedWithLowerCaseNamesAreFound") {
+  // Media copied from case-insensitive systems often arrive with lower-case names while the
+  // Referenced File ID stays upper case (PS3.10 8.5 allows only upper case).
+  TempDir dir("ddircase");
+  WriteImage(dir / "IMAGES/IM000001");
+  REQUIRE(WriteDicomdir(dir.path(), {"IMAGES/IM000001"}).ok());
+  fs::rename(dir / "IMAGES/IM000001", dir / "IMAGES/im000001");
+  fs::rename(dir / "IMAGES", dir / "images");
+  Result<std::vector<fs::path>> listed = ListDicomdir(dir / "DICOMDIR");
+  REQUIRE_MESSAGE(listed.ok(), listed.error().ToString());
+  REQUIRE(listed->size() == 1);
+  CHECK((*listed)[0] == dir / "images" / "im000001");
+  CHECK(ReadRadiograph((*listed)[0]).ok());
+}

@@ -176,6 +176,7 @@ TEST_CASE("Jpeg2000WithBadHeaderIsRejected") {
   REQUIRE_FALSE(r.ok());
   CHECK(r.error().ToString().find("badsiz.dcm") != std::string::npos);
   CHECK(r.error().attribute.find("(7FE0,0010)") != std::string::npos);
+  CHECK(r.error().reason.find("JPEG 2000") != std::string::npos);
 
   // No J2K/JP2 signature at all.
   std::vector<char> plain(200, '\x11');

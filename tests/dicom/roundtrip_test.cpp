@@ -3,6 +3,7 @@
 #include <doctest/doctest.h>
 
 #include <cmath>
+#include <thread>
 
 #include <dcmtk/dcmjpeg/djrplol.h>
 
@@ -73,6 +74,8 @@ TEST_CASE("EveryTransferSyntaxRoundTrips") {
       MESSAGE(name << ": mean abs error " << mean << ", max " << diff << " of " << range);
       CHECK(mean <= 0.01 * range);
       CHECK(diff <= 0.20 * range);
+      // ISO/IEC 14495-1: near-lossless bounds every sample error by NEAR (2 here).
+      if (syntax == TransferSyntax::kJpegLsNearLossless) CHECK(diff <= 2.0);
     } else {
       CHECK(diff == 0.0);
     }
@@ -358,4 +361,45 @@ TEST_CASE("JpegLosslessProcess14WithOtherPredictorIsRead") {
   REQUIRE_MESSAGE(r.ok(), r.error().ToString());
   CHECK(r->header.transfer_syntax_uid == "1.2.840.10008.1.2.4.57");
   CHECK(MaxAbsDiff(r->pixels, px) == 0.0);
+}
+
+TEST_CASE("ComputedRadiographyGetsTheCrStorageClass") {
+  // PS3.4 Annex B: CR Image Storage is 1.2.840.10008.5.1.4.1.1.1.
+  TempDir dir("cr");
+  StoredPixels px = MakePixels(20, 20, 10, false);
+  RadiographHeader h = MakeHeader(px, 16, 10, false);
+  h.modality = "CR";
+  REQUIRE(WriteRadiograph(h, px, dir / "cr.dcm").ok());
+  Result<Radiograph> r = ReadRadiograph(dir / "cr.dcm");
+  REQUIRE_MESSAGE(r.ok(), r.error().ToString());
+  CHECK(r->header.sop_class_uid == "1.2.840.10008.5.1.4.1.1.1");
+  CHECK(r->header.modality == "CR");
+}
+
+TEST_CASE("ParallelReadsGiveTheSameImages") {
+  // Batch scans read from several threads; codec registration happens lazily inside.
+  TempDir dir("threads");
+  std::vector<std::filesystem::path> files;
+  std::vector<StoredPixels> truth;
+  const TransferSyntax syntaxes[] = {TransferSyntax::kJpegLsLossless, TransferSyntax::kRle,
+                                     TransferSyntax::kJpeg2000Lossless, TransferSyntax::kJpegLossless};
+  for (int i = 0; i < 8; ++i) {
+    truth.push_back(MakePixels(64, 64, 12, false, static_cast<unsigned>(100 + i)));
+    files.push_back(dir / ("t" + std::to_string(i) + ".dcm"));
+    WriteOptions o;
+    o.syntax = syntaxes[i % 4];
+    REQUIRE(WriteRadiograph(MakeHeader(truth.back(), 16, 12, false), truth.back(), files.back(), o).ok());
+  }
+  std::vector<double> worst(files.size(), -1.0);
+  std::vector<std::thread> threads;
+  for (size_t t = 0; t < 4; ++t) {
+    threads.emplace_back([&, t] {
+      for (size_t i = t; i < files.size(); i += 4) {
+        Result<Radiograph> r = ReadRadiograph(files[i]);
+        worst[i] = r.ok() ? MaxAbsDiff(r->pixels, truth[i]) : 1e9;
+      }
+    });
+  }
+  for (std::thread& th : threads) th.join();
+  for (double w : worst) CHECK(w == 0.0);
 }
