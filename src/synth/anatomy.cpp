@@ -222,7 +222,7 @@ void AddImplant(Builder& b, std::mt19937_64& rng) {
                 {a.x + nx * (off + 5) , a.y + ny * (off + 5)},
                 {a.x + nx * (off + 5) + dx * len, a.y + ny * (off + 5) + dy * len},
                 {a.x + nx * off + dx * len, a.y + ny * off + dy * len}};
-  b.Slab(plate, 12.0, Material::kSteel);
+  b.Slab(plate, 4.0, Material::kSteel);  // beam through the plate's thickness
   for (int i = 0; i < 4; ++i) {
     double t = (i + 0.5) * len / 4;
     Point2d p{a.x + dx * t + nx * (off + 5), a.y + dy * t + ny * (off + 5)};

@@ -93,9 +93,14 @@ void FitOnReceptor(SynthScenario& sc, double clearance) {
                  c[k].x > sc.receptor_width_mm - clearance ||
                  c[k].y > sc.receptor_height_mm - clearance;
       if (!out) continue;
-      sc.edge_mm[us[k]] = std::max(5.0, sc.edge_mm[us[k]] - 1.0);
-      sc.edge_mm[vs[k]] = std::max(5.0, sc.edge_mm[vs[k]] - 1.0);
-      moved = true;
+      // Pull a blade in by 1 mm unless the field would get narrower than 20 mm.
+      for (int side : {us[k], vs[k]}) {
+        int opposite = side ^ 1;
+        if (sc.edge_mm[side] + sc.edge_mm[opposite] > 21.0) {
+          sc.edge_mm[side] -= 1.0;
+          moved = true;
+        }
+      }
     }
     if (!moved) return;
   }
@@ -135,8 +140,15 @@ void EdgesAround(SynthScenario& sc, const std::array<Point2d, 4>& roi,
   }
   sc.edge_mm = {-u0 + margin[0], u1 + margin[1], -v0 + margin[2], v1 + margin[3]};
   // Opposite blades may not cross: keep a minimum field of 20 mm.
-  if (sc.edge_mm[0] + sc.edge_mm[1] < 20) sc.edge_mm[0] = sc.edge_mm[1] = 10 + 0.5 * (sc.edge_mm[0] - sc.edge_mm[1]);
-  if (sc.edge_mm[2] + sc.edge_mm[3] < 20) sc.edge_mm[2] = sc.edge_mm[3] = 10 + 0.5 * (sc.edge_mm[2] - sc.edge_mm[3]);
+  for (int k : {0, 2}) {
+    double& a = sc.edge_mm[k];
+    double& b = sc.edge_mm[k + 1];
+    if (a + b < 20.0) {
+      double centre = 0.5 * (b - a);  // keep the field centre, widen to 20 mm
+      a = 10.0 - centre;
+      b = 10.0 + centre;
+    }
+  }
 }
 
 // Crop or blank cuts per image side; half of them fall inside the field and hide the blade.
@@ -160,7 +172,7 @@ void DrawCuts(SynthScenario& sc, std::array<SynthSideCut, 4>& cuts, std::mt19937
     double g = std::max(gap[side], 0.0);
     double inset = inside(rng) ? g + U(5.0, std::min(30.0, 0.2 * span[side]))(rng)
                                : g * U(0.3, 0.8)(rng);
-    if (inset < 2.0) continue;
+    if (inset < 2.0) inset = g + 5.0;  // too thin to see: cut into the field instead
     cuts[side] = {true, inset};
   }
 }

@@ -84,22 +84,24 @@ Image ProcessedValues(const SynthScenario& sc, const Image& kerma, const std::ve
   cv::Mat log(kerma.height(), kerma.width(), CV_32F);
   std::vector<float> all(kerma.data(), kerma.data() + kerma.size());
   double floor = std::max(1e-4, Percentile(all, 0.5) * 1e-3);
+  float* lp = log.ptr<float>(0);  // continuous: one row after another
   for (size_t i = 0; i < kerma.size(); ++i)
-    log.at<float>(static_cast<int>(i)) = static_cast<float>(std::log(std::max<double>(kerma.data()[i], floor)));
+    lp[i] = static_cast<float>(std::log(std::max<double>(kerma.data()[i], floor)));
   std::uniform_real_distribution<double> amount(0.4, 1.5), radius(4.0, 15.0);
   cv::Mat blur;
   cv::GaussianBlur(log, blur, cv::Size(0, 0), radius(rng) / sc.pixel_mm, 0, cv::BORDER_REPLICATE);
   cv::Mat sharp = log + amount(rng) * (log - blur);
+  const float* sp = sharp.ptr<float>(0);
   std::vector<float> inside;
   for (size_t i = 0; i < kerma.size(); ++i) {
-    if (field[i]) inside.push_back(sharp.at<float>(static_cast<int>(i)));
+    if (field[i]) inside.push_back(sp[i]);
   }
   if (inside.size() < 16) inside.assign(sharp.begin<float>(), sharp.end<float>());
   double lo = Percentile(inside, 0.01), hi = Percentile(inside, 0.995);
   if (hi - lo < 1e-6) hi = lo + 1.0;
   Image out(kerma.width(), kerma.height());
   for (size_t i = 0; i < kerma.size(); ++i) {
-    double t = (sharp.at<float>(static_cast<int>(i)) - lo) / (hi - lo);
+    double t = (sp[i] - lo) / (hi - lo);
     // Soft shoulder and toe around a linear middle, as display curves do.
     double s = 0.5 + 0.47 * std::tanh(2.2 * (t - 0.5)) / std::tanh(1.1);
     out.data()[i] = static_cast<float>(std::clamp(s, 0.0, 1.0));

@@ -35,34 +35,45 @@ double EdgeTransmission(double inside_mm, double penumbra_mm, double aperture_mm
   return (RampIntegral(inside_mm + a, P) - RampIntegral(inside_mm - a, P)) / aperture_mm;
 }
 
-double CollimatorTransmission(const SynthScenario& sc, double x, double y) {
-  FieldFrame f(sc);
-  auto in = InsideDistances(sc, f, x, y);
-  double focal = 1.0, off = 1.0;
+BeamModel::BeamModel(const SynthScenario& sc) : sc_(sc), frame_(sc) {
   for (int k = 0; k < 4; ++k) {
     double d = k < 2 ? sc.blade_distance_lr_mm : sc.blade_distance_tb_mm;
-    double pf = GeometricPenumbraMm(sc.focal_spot_mm, sc.sid_mm, d);
-    double po = GeometricPenumbraMm(sc.off_focus_size_mm, sc.sid_mm, d);
-    focal *= EdgeTransmission(in[k], pf, sc.pixel_mm);
-    off *= EdgeTransmission(in[k], po, sc.pixel_mm);
+    focal_[k] = GeometricPenumbraMm(sc.focal_spot_mm, sc.sid_mm, d);
+    off_[k] = GeometricPenumbraMm(sc.off_focus_size_mm, sc.sid_mm, d);
   }
-  double open = (1.0 - sc.off_focus_fraction) * focal + sc.off_focus_fraction * off;
-  return sc.blade_transmission + (1.0 - sc.blade_transmission) * open;
-}
-
-double BeamShape(const SynthScenario& sc, double x, double y) {
-  double dx = x - sc.ray_x_mm, dy = y - sc.ray_y_mm;
-  double r2 = dx * dx + dy * dy + sc.sid_mm * sc.sid_mm;
-  // Inverse square times obliquity on a flat detector: (SID / r)^3 = cos^3(theta).
-  double cos_t = sc.sid_mm / std::sqrt(r2);
-  double inv_sq = cos_t * cos_t * cos_t;
+  double a = sc.anode_angle_deg * kPi / 180.0;
+  ax_ = std::cos(a);
+  ay_ = std::sin(a);
   // Heel effect: output falls towards the anode; modelled as exp(-k tan(angle)) with
   // `heel_strength` the relative loss at 15 degrees (shape from memory, no single source).
-  double a = sc.anode_angle_deg * kPi / 180.0;
-  double t = (dx * std::cos(a) + dy * std::sin(a)) / sc.sid_mm;
-  double k = -std::log(1.0 - std::clamp(sc.heel_strength, 0.0, 0.9)) / std::tan(15.0 * kPi / 180.0);
-  return inv_sq * std::exp(-k * t);
+  heel_k_ = -std::log(1.0 - std::clamp(sc.heel_strength, 0.0, 0.9)) / std::tan(15.0 * kPi / 180.0);
 }
+
+double BeamModel::Collimator(double x, double y) const {
+  auto in = InsideDistances(sc_, frame_, x, y);
+  double focal = 1.0, off = 1.0;
+  for (int k = 0; k < 4; ++k) {
+    focal *= EdgeTransmission(in[k], focal_[k], sc_.pixel_mm);
+    off *= EdgeTransmission(in[k], off_[k], sc_.pixel_mm);
+  }
+  double open = (1.0 - sc_.off_focus_fraction) * focal + sc_.off_focus_fraction * off;
+  return sc_.blade_transmission + (1.0 - sc_.blade_transmission) * open;
+}
+
+double BeamModel::Shape(double x, double y) const {
+  double dx = x - sc_.ray_x_mm, dy = y - sc_.ray_y_mm;
+  double r2 = dx * dx + dy * dy + sc_.sid_mm * sc_.sid_mm;
+  // Inverse square times obliquity on a flat detector: (SID / r)^3 = cos^3(theta).
+  double cos_t = sc_.sid_mm / std::sqrt(r2);
+  double t = (dx * ax_ + dy * ay_) / sc_.sid_mm;
+  return cos_t * cos_t * cos_t * std::exp(-heel_k_ * t);
+}
+
+double CollimatorTransmission(const SynthScenario& sc, double x, double y) {
+  return BeamModel(sc).Collimator(x, y);
+}
+
+double BeamShape(const SynthScenario& sc, double x, double y) { return BeamModel(sc).Shape(x, y); }
 
 ExposureMaps RenderExposure(const SynthScenario& sc, const SceneObjects& scene, int width,
                             int height) {
@@ -70,13 +81,14 @@ ExposureMaps RenderExposure(const SynthScenario& sc, const SceneObjects& scene, 
   out.primary = Image(width, height);
   out.tissue = Image(width, height);
   const double p = sc.pixel_mm, k0 = DetectorKermaUgy(sc);
+  const BeamModel beam(sc);
   for (int y = 0; y < height; ++y) {
     float* pr = out.primary.row(y);
     float* ti = out.tissue.row(y);
     double ym = (y + 0.5) * p;
     for (int x = 0; x < width; ++x) {
       double xm = (x + 0.5) * p;
-      double incident = k0 * BeamShape(sc, xm, ym) * CollimatorTransmission(sc, xm, ym);
+      double incident = k0 * beam.Shape(xm, ym) * beam.Collimator(xm, ym);
       double li = scene.patient.LineIntegral(xm, ym, sc.kvp) + scene.lead.LineIntegral(xm, ym, sc.kvp);
       pr[x] = static_cast<float>(incident * std::exp(-li));
       ti[x] = static_cast<float>(scene.patient.TissueThickness(xm, ym));
@@ -97,18 +109,19 @@ void AddScatter(const SynthScenario& sc, const SceneObjects& scene, ExposureMaps
   int ch = std::max(4, static_cast<int>(std::ceil(maps.primary.height() * sc.pixel_mm / cell)));
   cv::Mat source(ch, cw, CV_32F);
   const double k0 = DetectorKermaUgy(sc), mu = Mu(Material::kSoft, sc.kvp);
+  const BeamModel beam(sc);
   for (int y = 0; y < ch; ++y) {
     for (int x = 0; x < cw; ++x) {
       double xm = (x + 0.5) * cell, ym = (y + 0.5) * cell;
       double t = scene.patient.TissueThickness(xm, ym);
-      double incident = k0 * BeamShape(sc, xm, ym) * CollimatorTransmission(sc, xm, ym);
+      double incident = k0 * beam.Shape(xm, ym) * beam.Collimator(xm, ym);
       source.at<float>(y, x) = static_cast<float>(incident * (1.0 - std::exp(-mu * t)));
     }
   }
   double sigma_mm = 25.0 + 0.25 * scene.patient.typical_thickness_mm;
   cv::Mat spread;
   cv::GaussianBlur(source, spread, cv::Size(0, 0), sigma_mm / cell, 0, cv::BORDER_CONSTANT);
-  double scale = 0.1 * sc.scatter_scale * (sc.grid ? 0.15 : 1.0);
+  double scale = 0.025 * sc.scatter_scale * (sc.grid ? 0.15 : 1.0);
   cv::Mat full;
   cv::resize(spread, full, cv::Size(maps.primary.width(), maps.primary.height()), 0, 0,
              cv::INTER_LINEAR);

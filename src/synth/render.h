@@ -5,6 +5,7 @@
 
 #include "beamtrim/image.h"
 #include "beamtrim/synth.h"
+#include "synth/model.h"
 #include "synth/phantom.h"
 
 namespace beamtrim::synth_internal {
@@ -19,6 +20,22 @@ struct ExposureMaps {
 // edge, positive inside the field) for a uniform focal spot whose projected width is
 // `penumbra_mm`, averaged over a detector aperture of `aperture_mm` (0 = point sample).
 double EdgeTransmission(double inside_mm, double penumbra_mm, double aperture_mm);
+
+// The beam of one scenario with its per-scenario constants precomputed.
+class BeamModel {
+ public:
+  explicit BeamModel(const SynthScenario& sc);
+  // Collimator transmission at a detector point (mm), with leakage and off-focus radiation.
+  double Collimator(double x, double y) const;
+  // Relative free-in-air output at a detector point (mm): inverse square, obliquity, heel.
+  double Shape(double x, double y) const;
+
+ private:
+  const SynthScenario& sc_;
+  FieldFrame frame_;
+  std::array<double, 4> focal_{}, off_{};
+  double ax_ = 0, ay_ = 1, heel_k_ = 0;
+};
 
 // Collimator transmission at a detector point (mm), with leakage and off-focus radiation.
 double CollimatorTransmission(const SynthScenario& sc, double x, double y);

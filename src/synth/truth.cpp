@@ -4,7 +4,7 @@
 // holds the patient tissue inside the field.
 #include <algorithm>
 #include <cmath>
-#include <opencv2/imgproc.hpp>
+#include <cstdint>
 
 #include "synth/model.h"
 #include "synth/phantom.h"
@@ -36,22 +36,44 @@ bool ClipSegment(Segment& s, double x0, double y0, double x1, double y1) {
 
 double Length(const Segment& s) { return std::hypot(s.b.x - s.a.x, s.b.y - s.a.y); }
 
-// Union area of polygons, rasterised from the analytic outlines at a fine sub-pixel grid.
+// Union area of polygons by sampling a fine grid at cell centres (even-odd rule per polygon,
+// union across polygons). Centre sampling is unbiased at the boundary, unlike filling every
+// touched cell. Edges are walked once each, pushing their crossings into the rows they span.
 double UnionAreaPx(const std::vector<Polygon>& pieces, int width, int height) {
-  int ss = std::clamp(4000 / std::max(width, height), 1, 4);
-  cv::Mat mask = cv::Mat::zeros(height * ss, width * ss, CV_8U);
-  constexpr int kShift = 4;
+  const int ss = std::clamp(4000 / std::max(width, height), 1, 4);
+  const int rows = height * ss, cols = width * ss;
+  std::vector<uint8_t> mask(static_cast<size_t>(rows) * cols, 0);
+  std::vector<std::vector<double>> cross(static_cast<size_t>(rows));
   for (const Polygon& poly : pieces) {
     if (poly.size() < 3) continue;
-    std::vector<cv::Point> pts;
-    for (const Point2d& p : poly) {
-      pts.emplace_back(static_cast<int>(std::lround(p.x * ss * (1 << kShift))),
-                       static_cast<int>(std::lround(p.y * ss * (1 << kShift))));
+    int r_lo = rows, r_hi = -1;
+    for (size_t i = 0; i < poly.size(); ++i) {
+      Point2d a = poly[i], b = poly[(i + 1) % poly.size()];
+      if (a.y == b.y) continue;
+      if (a.y > b.y) std::swap(a, b);
+      // Rows whose centre (r + 0.5) / ss lies in [a.y, b.y).
+      int r0 = std::max(0, static_cast<int>(std::ceil(a.y * ss - 0.5)));
+      int r1 = std::min(rows - 1, static_cast<int>(std::ceil(b.y * ss - 0.5)) - 1);
+      for (int r = r0; r <= r1; ++r) {
+        double yc = (r + 0.5) / ss;
+        cross[static_cast<size_t>(r)].push_back(a.x + (yc - a.y) * (b.x - a.x) / (b.y - a.y));
+      }
+      r_lo = std::min(r_lo, r0);
+      r_hi = std::max(r_hi, r1);
     }
-    std::vector<std::vector<cv::Point>> one{pts};
-    cv::fillPoly(mask, one, cv::Scalar(255), cv::LINE_8, kShift);
+    for (int r = r_lo; r <= r_hi; ++r) {
+      std::vector<double>& xs = cross[static_cast<size_t>(r)];
+      std::sort(xs.begin(), xs.end());
+      for (size_t k = 0; k + 1 < xs.size(); k += 2) {
+        int c0 = std::max(0, static_cast<int>(std::ceil(xs[k] * ss - 0.5)));
+        int c1 = std::min(cols, static_cast<int>(std::ceil(xs[k + 1] * ss - 0.5)));
+        if (c1 > c0) std::fill_n(mask.begin() + static_cast<long>(r) * cols + c0, c1 - c0, 1);
+      }
+      xs.clear();
+    }
   }
-  return static_cast<double>(cv::countNonZero(mask)) / (ss * ss);
+  size_t n = static_cast<size_t>(std::count(mask.begin(), mask.end(), 1));
+  return static_cast<double>(n) / (ss * ss);
 }
 
 }  // namespace
@@ -191,7 +213,8 @@ AnatomyTruth AnatomyOf(const SynthScenario& sc, const FieldGeometry& g,
                                             fr.From(u0, v1)};
   t.anatomy.hull_px = ConvexHull(points);
   double p = sc.pixel_mm;
-  t.anatomy.area_mm2 = UnionAreaPx(pieces, g.window.w, g.window.h) * p * p;
+  // Sampling noise could nudge the area past the field's; the tissue lies inside it.
+  t.anatomy.area_mm2 = std::min(UnionAreaPx(pieces, g.window.w, g.window.h), Area(g.clipped)) * p * p;
   // A side is clipped when tissue (within the image) runs across its blade edge.
   const double tol = 1e-6;
   const double edge_uv[4] = {-sc.edge_mm[0] / p, sc.edge_mm[1] / p, -sc.edge_mm[2] / p,
