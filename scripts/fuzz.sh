@@ -18,14 +18,15 @@ if [[ ! -f $BUILD/CMakeCache.txt ]]; then
   CC=clang-14 CXX=clang++-14 cmake -S . -B $BUILD -G Ninja -DCMAKE_BUILD_TYPE=RelWithDebInfo \
     -DBEAMTRIM_FUZZ=ON -DBEAMTRIM_TESTS=OFF
 fi
-cmake --build $BUILD --target "${TARGETS[@]}" beamtrim_cli -j"$(nproc)"
+cmake --build $BUILD --target "${TARGETS[@]}" -j"$(nproc)"
 
 SEEDS=fuzz/seeds
 if [[ ! -d $SEEDS ]]; then
   mkdir -p $SEEDS
   # Small synthetic images in every transfer syntax the generator writes.
-  ASAN_OPTIONS=detect_leaks=0 $BUILD/beamtrim synth --out "$SEEDS/synth" --count 48 --seed 7 \
-    --pixel-mm 4 --syntax mixed >/dev/null
+  # Seeds come from the ordinary build's generator.
+  [[ -x build/beamtrim ]] || ./scripts/build.sh >/dev/null
+  build/beamtrim synth --out "$SEEDS/synth" --count 48 --seed 7 --pixel-mm 4 --syntax mixed >/dev/null
   find "$SEEDS/synth" -name '*.dcm' -exec cp {} $SEEDS/ \;
   rm -rf "$SEEDS/synth"
   cp testdata/broken/*.dcm $SEEDS/ 2>/dev/null || true

@@ -3,6 +3,8 @@
 
 #include <exception>
 
+#include "beamtrim/metrics.h"
+#include "beamtrim/rules.h"
 #include "beamtrim/version.h"
 
 namespace beamtrim {
@@ -19,13 +21,6 @@ ImageRecord FailedRecord(const std::filesystem::path& file, const Error& error) 
   record.reason = without_file.ToString();
   record.software_version = kVersion;
   return record;
-}
-
-FieldContext MakeFieldContext(const Radiograph& radiograph) {
-  FieldContext context;
-  context.spacing_mm = radiograph.header.DetectorSpacing();
-  context.linear = radiograph.linear;
-  return context;
 }
 
 }  // namespace
@@ -60,8 +55,11 @@ void FillRecordContext(const Radiograph& radiograph, ImageRecord* record) {
 }
 
 Result<Measurer> Measurer::Create(const MeasureOptions& options) {
+  Result<std::shared_ptr<const RuleSet>> rules = LoadRules(options.rules_file);
+  if (!rules.ok()) return rules.error();
   Measurer measurer;
   measurer.options_ = options;
+  measurer.rules_ = std::move(rules).value();
   return measurer;
 }
 
@@ -80,7 +78,9 @@ ImageRecord Measurer::MeasureFile(const std::filesystem::path& file) const {
 ImageRecord Measurer::MeasureRadiograph(const Radiograph& radiograph) const {
   ImageRecord record;
   FillRecordContext(radiograph, &record);
-  record.field = DetectField(radiograph.pixels, MakeFieldContext(radiograph), options_.field);
+  FieldContext context = FieldContextFromHeader(radiograph.header, radiograph.linear);
+  record.field = DetectField(radiograph.pixels, context, options_.field);
+  ComputeMetrics(radiograph, *record.field, *rules_, &record);
   return record;
 }
 
