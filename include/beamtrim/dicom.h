@@ -74,6 +74,14 @@ struct RadiographHeader {
   std::optional<DeclaredEdges> collimator_edges;  // (0018,1702..1708)
   std::string shutter_shape;                      // (0018,1600)
   std::optional<DeclaredEdges> shutter_edges;     // (0018,1602..1608)
+  // Circular and polygonal outlines, in pixels of the image as the modules give them:
+  // centres as [row, column]; polygons as row\column pairs, origin vertex first.
+  std::optional<std::array<double, 2>> collimator_circle_center;  // (0018,1710)
+  std::optional<double> collimator_circle_radius;                 // (0018,1712)
+  std::vector<double> collimator_polygon;                         // (0018,1720)
+  std::optional<std::array<double, 2>> shutter_circle_center;     // (0018,1610)
+  std::optional<double> shutter_circle_radius;                    // (0018,1612)
+  std::vector<double> shutter_polygon;                            // (0018,1620)
 
   // Dose and exposure.
   std::optional<double> area_dose_product_dgy_cm2;  // (0018,115E)

@@ -70,6 +70,18 @@ static std::optional<DeclaredEdges> GetEdges(DcmItem& item, const DcmTagKey& lef
   return DeclaredEdges{*l, *r, *u, *d};
 }
 
+static std::vector<double> GetAll(DcmItem& item, const DcmTagKey& key) {
+  std::vector<double> out;
+  DcmElement* elem = nullptr;
+  if (item.findAndGetElement(key, elem).bad() || elem == nullptr) return out;
+  for (unsigned long i = 0; i < elem->getVM(); ++i) {
+    std::optional<double> v = GetDouble(item, key, i);
+    if (!v) return {};
+    out.push_back(*v);
+  }
+  return out;
+}
+
 static void ExtractImagePixel(DcmDataset& ds, RadiographHeader& h) {
   h.photometric_interpretation = GetString(ds, DCM_PhotometricInterpretation);
   h.rows = static_cast<int>(GetInt(ds, DCM_Rows).value_or(0));
@@ -110,6 +122,19 @@ static void ExtractGeometry(DcmDataset& ds, RadiographHeader& h) {
   h.shutter_shape = GetAllValues(ds, DCM_ShutterShape);
   h.shutter_edges = GetEdges(ds, DCM_ShutterLeftVerticalEdge, DCM_ShutterRightVerticalEdge,
                              DCM_ShutterUpperHorizontalEdge, DCM_ShutterLowerHorizontalEdge);
+  if (GetDouble(ds, DCM_CenterOfCircularCollimator, 1)) {
+    h.collimator_circle_center = GetPair(ds, DCM_CenterOfCircularCollimator);
+  }
+  h.collimator_circle_radius = GetDouble(ds, DCM_RadiusOfCircularCollimator);
+  h.collimator_polygon = GetAll(ds, DCM_VerticesOfThePolygonalCollimator);
+  if (GetDouble(ds, DCM_CenterOfCircularShutter, 1)) {
+    h.shutter_circle_center = GetPair(ds, DCM_CenterOfCircularShutter);
+  }
+  h.shutter_circle_radius = GetDouble(ds, DCM_RadiusOfCircularShutter);
+  h.shutter_polygon = GetAll(ds, DCM_VerticesOfThePolygonalShutter);
+  // PS3.3: vertices come in row\column pairs; an odd count is not a polygon.
+  if (h.collimator_polygon.size() % 2 != 0) h.collimator_polygon.clear();
+  if (h.shutter_polygon.size() % 2 != 0) h.shutter_polygon.clear();
 }
 
 static void ExtractDose(DcmDataset& ds, RadiographHeader& h) {

@@ -69,6 +69,13 @@ void PutPair(DcmDataset& ds, const DcmTagKey& key, const std::optional<std::arra
   ds.putAndInsertString(key, (f((*v)[0]) + "\\" + f((*v)[1])).c_str());
 }
 
+void PutIsList(DcmDataset& ds, const DcmTagKey& key, const std::vector<double>& v) {
+  if (v.empty()) return;
+  std::string text;
+  for (double x : v) text += (text.empty() ? "" : "\\") + std::to_string(std::lround(x));
+  ds.putAndInsertString(key, text.c_str());
+}
+
 std::string NewUid() {
   char uid[100];
   dcmGenerateUniqueIdentifier(uid, SITE_INSTANCE_UID_ROOT);
@@ -148,6 +155,12 @@ void PutAcquisition(DcmDataset& ds, const RadiographHeader& h) {
     PutIs(ds, DCM_ShutterUpperHorizontalEdge, h.shutter_edges->upper);
     PutIs(ds, DCM_ShutterLowerHorizontalEdge, h.shutter_edges->lower);
   }
+  PutPair(ds, DCM_CenterOfCircularCollimator, h.collimator_circle_center, /*integer=*/true);
+  PutIs(ds, DCM_RadiusOfCircularCollimator, h.collimator_circle_radius);
+  PutIsList(ds, DCM_VerticesOfThePolygonalCollimator, h.collimator_polygon);
+  PutPair(ds, DCM_CenterOfCircularShutter, h.shutter_circle_center, /*integer=*/true);
+  PutIs(ds, DCM_RadiusOfCircularShutter, h.shutter_circle_radius);
+  PutIsList(ds, DCM_VerticesOfThePolygonalShutter, h.shutter_polygon);
   PutDs(ds, DCM_ImageAndFluoroscopyAreaDoseProduct, h.area_dose_product_dgy_cm2);
   PutDs(ds, DCM_EntranceDoseInmGy, h.entrance_dose_mgy);
   PutDs(ds, DCM_KVP, h.kvp);

@@ -221,6 +221,12 @@ TEST_CASE("HeaderFieldsSurviveWriteAndRead") {
   h.collimator_edges = DeclaredEdges{3, 37, 4, 26};
   h.shutter_shape = "RECTANGULAR";
   h.shutter_edges = DeclaredEdges{2, 38, 1, 29};
+  h.collimator_circle_center = std::array<double, 2>{15, 20};
+  h.collimator_circle_radius = 12;
+  h.collimator_polygon = {2, 3, 2, 37, 27, 37, 27, 3};
+  h.shutter_circle_center = std::array<double, 2>{14, 19};
+  h.shutter_circle_radius = 11;
+  h.shutter_polygon = {1, 1, 1, 30, 20, 15};
   h.area_dose_product_dgy_cm2 = 1.85;
   h.entrance_dose_mgy = 0.21;
   h.kvp = 72.0;
@@ -279,6 +285,14 @@ TEST_CASE("HeaderFieldsSurviveWriteAndRead") {
     CHECK(g.collimator_edges->lower == 26);
     REQUIRE(g.shutter_edges.has_value());
     CHECK(g.shutter_edges->lower == 29);
+    REQUIRE(g.collimator_circle_center.has_value());
+    CHECK((*g.collimator_circle_center)[1] == 20);
+    CHECK(*g.collimator_circle_radius == 12);
+    CHECK(g.collimator_polygon == h.collimator_polygon);
+    REQUIRE(g.shutter_circle_center.has_value());
+    CHECK((*g.shutter_circle_center)[0] == 14);
+    CHECK(*g.shutter_circle_radius == 11);
+    CHECK(g.shutter_polygon == h.shutter_polygon);
     CHECK(*g.area_dose_product_dgy_cm2 == doctest::Approx(1.85));
     CHECK(*g.entrance_dose_mgy == doctest::Approx(0.21));
     CHECK(*g.kvp == doctest::Approx(72.0));
