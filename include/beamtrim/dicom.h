@@ -1,6 +1,6 @@
 // DICOM reading: projection radiographs (DX, CR) into a header value type and a float image.
 // Reads Part 10 files (and raw data sets without a meta header where DCMTK can), in every
-// transfer syntax found in archives (see docs/method.md). Pixels follow the Image convention:
+// transfer syntax found in archives (see docs/dicom.md). Pixels follow the Image convention:
 // larger value = more radiation reached the detector. Functions are thread-safe after
 // RegisterDicomCodecs() has run once (it is also called lazily, guarded).
 // Results are value types owned by the caller. Errors name the file and the attribute.
@@ -105,7 +105,7 @@ struct RadiographHeader {
   std::string acquisition_date;
   std::string content_date;
 
-  // Spacing at the detector plane [row, column], by the precedence in docs/method.md:
+  // Spacing at the detector plane [row, column], by the precedence in docs/dicom.md:
   // Imager Pixel Spacing; else Pixel Spacing, scaled back by the magnification factor when
   // its calibration type says it is calibrated to the patient plane.
   std::optional<std::array<double, 2>> DetectorSpacing() const;
