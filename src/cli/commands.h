@@ -18,5 +18,7 @@ void AddSynthCommand(CLI::App& app);
 void AddMeasureCommand(CLI::App& app);
 void AddOverlayCommand(CLI::App& app);
 void AddReportCommand(CLI::App& app);
+void AddListenCommand(CLI::App& app);
+void AddPullCommand(CLI::App& app);
 
 }  // namespace beamtrim::cli

@@ -29,6 +29,8 @@ int main(int argc, char** argv) {
   beamtrim::cli::AddMeasureCommand(app);
   beamtrim::cli::AddOverlayCommand(app);
   beamtrim::cli::AddReportCommand(app);
+  beamtrim::cli::AddListenCommand(app);
+  beamtrim::cli::AddPullCommand(app);
 
   try {
     app.parse(argc, argv);
