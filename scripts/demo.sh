@@ -29,15 +29,43 @@ mkdir -p "$OUT"
 rm -rf "$OUT/images"
 "$BIN" synth --clinic --out "$OUT/images" --count "$COUNT" --seed "$SEED" --png
 
-# Later stages run when the program offers them; each is optional so the demo stays usable
-# while the tool grows.
-has() { "$BIN" "$1" --help >/dev/null 2>&1; }
-if has measure; then
-  step "measure"
-  "$BIN" measure "$OUT/images" --jsonl "$OUT/records.jsonl" || echo "demo: measure reported problems (see above)"
-fi
+step "scan: measure every image into the audit store"
+rm -f "$OUT/audit.sqlite" "$OUT/audit.sqlite-wal" "$OUT/audit.sqlite-shm"
+"$BIN" scan "$OUT/images" --store "$OUT/audit.sqlite" --key-file "$OUT/store.key"
+
+step "tables: per radiographer, room, exam and month (CSV, JSON and XLSX)"
+rm -rf "$OUT/tables"
+"$BIN" tables --store "$OUT/audit.sqlite" --format csv --out "$OUT/tables"
+"$BIN" tables --store "$OUT/audit.sqlite" --format json --out "$OUT/tables.json"
+"$BIN" tables --store "$OUT/audit.sqlite" --format xlsx --out "$OUT/tables.xlsx" \
+  --pseudonymise --key-file "$OUT/manager.key"
+
+step "report: the latest month, with feedback sheets"
+PERIOD=$(sqlite3 "$OUT/audit.sqlite" "SELECT max(month) FROM images WHERE month <> ''" 2>/dev/null || true)
+[[ -n "$PERIOD" ]] || PERIOD=$(date +%Y-%m)
+"$BIN" report --store "$OUT/audit.sqlite" --period "$PERIOD" --out "$OUT/report.html" \
+  --feedback "$OUT/feedback"
+
+step "overlay: one image with its measured field and anatomy"
+first=$(find "$OUT/images" -name '*.dcm' | sort | head -n 1)
+"$BIN" overlay "$first" --png "$OUT/overlay.png"
+
+step "physicist QC: a synthetic test exposure of XR-ROOM-1"
+rm -rf "$OUT/qc"
+"$BIN" synth-qc --out "$OUT/qc" --count 1 --seed "$SEED" --room XR-ROOM-1
+qc_image=$(find "$OUT/qc" -name '*.dcm' | sort | head -n 1)
+"$BIN" qc-field "$qc_image" --store "$OUT/audit.sqlite" --html "$OUT/qc-report.html" || \
+  echo "demo: the QC check reported a problem (see above)"
 
 step "done"
-echo "Synthetic images, truth records and manifest: $OUT/images"
-[[ -f "$OUT/records.jsonl" ]] && echo "Measurements: $OUT/records.jsonl"
-echo "All patients, staff, rooms and the institution in this demo are invented."
+cat <<MSG
+Open these (all data are invented: patients, staff, rooms and the institution):
+  $OUT/report.html         monthly audit report ($PERIOD)
+  $OUT/feedback/           one feedback sheet per radiographer
+  $OUT/tables/             audit tables (CSV); $OUT/tables.xlsx (pseudonymised)
+  $OUT/overlay.png         one radiograph with its measured field
+  $OUT/qc-report.html      beam-limiting device QC for XR-ROOM-1
+Dose figures are estimates for quality improvement, not patient dose records. Findings about a
+person are for coaching; local regulations, the department's protocols and the medical
+physicist take precedence.
+MSG
