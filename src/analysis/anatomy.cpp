@@ -50,13 +50,38 @@ float LocalLog(const Image& image, int x, int y, bool linear) {
   return anatomy_internal::ToLog(mean, linear);
 }
 
+// Inward-facing blade lines with the depth, in pixels, past which the penumbra is over.
+struct Blade {
+  Side side;
+  Line line;      // oriented so that the field lies at positive distance
+  double depth;   // 90 % point of the penumbra plus a margin
+};
+
+std::vector<Blade> VisibleBlades(const FieldMeasurement& field, const std::array<double, 2>& sp) {
+  std::vector<Blade> out;
+  Point2d centre{0.0, 0.0};
+  for (const Point2d& p : field.polygon_px) {
+    centre.x += p.x / field.polygon_px.size();
+    centre.y += p.y / field.polygon_px.size();
+  }
+  for (const SideMeasurement& sm : field.sides) {
+    if (!sm.visible || !sm.line_px) continue;
+    Line line = LineThrough(sm.line_px->a, sm.line_px->b);
+    if (line.SignedDistance(centre) < 0) line = Line{-line.nx, -line.ny, -line.c};
+    double depth = 0.5 * sm.penumbra_px.value_or(2.0) + std::max(2.0, 1.0 / std::min(sp[0], sp[1]));
+    out.push_back({sm.side, line, depth});
+  }
+  return out;
+}
+
 struct Refiner {
   const Image& image;
   const Working& w;
   const Segmentation& s;
   const FieldFrame& frame;
   bool linear;
-  cv::Mat near;  // anatomy grown by two working pixels
+  cv::Mat near;  // anatomy grown by three working pixels
+  std::vector<Blade> blades;
 
   float Residual(int x, int y) const {
     double wx = (x + 0.5) / w.fx - 0.5, wy = (y + 0.5) / w.fy - 0.5;
@@ -66,7 +91,12 @@ struct Refiner {
   bool Usable(int x, int y) const {
     int wx = std::min(static_cast<int>(x / w.fx), w.field.cols - 1);
     int wy = std::min(static_cast<int>(y / w.fy), w.field.rows - 1);
-    return w.field.at<uchar>(wy, wx) && near.at<uchar>(wy, wx) && !s.metal.at<uchar>(wy, wx);
+    if (!near.at<uchar>(wy, wx) || s.metal.at<uchar>(wy, wx)) return false;
+    Point2d p{x + 0.5, y + 0.5};
+    for (const Blade& b : blades) {
+      if (b.line.SignedDistance(p) < b.depth) return false;
+    }
+    return true;
   }
 };
 
@@ -125,36 +155,40 @@ void RefineSides(const Refiner& r, double threshold, BoxExtents& e) {
   }
 }
 
-// A visible blade edge is clipped when tissue lies just inside it over at least 2 mm.
-std::vector<Side> ClippedSides(const FieldMeasurement& field, const Working& w,
-                               const Segmentation& s, const std::array<double, 2>& spacing) {
+// A visible blade edge is clipped when tissue lies just past its penumbra over at least 3 mm
+// of its length, and the working segmentation agrees a little further in.
+std::vector<Side> ClippedSides(const FieldMeasurement& field, const Refiner& r,
+                               const std::vector<Blade>& blades, double threshold,
+                               const std::array<double, 2>& spacing) {
   std::vector<Side> out;
-  cv::Mat tissue = s.direct_found ? cv::Mat((s.residual > s.threshold) & ~s.metal) : w.field;
-  Point2d centre{0.0, 0.0};
-  for (const Point2d& p : field.polygon_px) {
-    centre.x += p.x / field.polygon_px.size();
-    centre.y += p.y / field.polygon_px.size();
-  }
+  const Working& w = r.w;
+  cv::Mat tissue = r.s.direct_found ? cv::Mat(w.field & ~r.s.direct & ~r.s.metal) : w.field;
   double step_px = 1.0 / std::min(spacing[0], spacing[1]);  // 1 mm
-  for (const SideMeasurement& sm : field.sides) {
-    if (!sm.visible || !sm.line_px) continue;
-    Line line = LineThrough(sm.line_px->a, sm.line_px->b);
-    double inward = line.SignedDistance(centre) > 0 ? 1.0 : -1.0;
-    double depth = (w.erosion_px + 1.0) * std::max(w.fx, w.fy);
-    double len = std::hypot(sm.line_px->b.x - sm.line_px->a.x, sm.line_px->b.y - sm.line_px->a.y);
+  for (const Blade& b : blades) {
+    const Segment& seg = *field.side(b.side).line_px;
+    double len = std::hypot(seg.b.x - seg.a.x, seg.b.y - seg.a.y);
+    double deep = (w.erosion_px + 1.0) * std::max(w.fx, w.fy);
     int n = std::max(2, static_cast<int>(len / step_px));
-    int hits = 0, run = 0;
+    int best = 0, run = 0;
     for (int i = 0; i <= n; ++i) {
       double t = static_cast<double>(i) / n;
-      Point2d p{sm.line_px->a.x + t * (sm.line_px->b.x - sm.line_px->a.x) + inward * depth * line.nx,
-                sm.line_px->a.y + t * (sm.line_px->b.y - sm.line_px->a.y) + inward * depth * line.ny};
-      int wx = static_cast<int>(p.x / w.fx), wy = static_cast<int>(p.y / w.fy);
-      bool inside = wx >= 0 && wy >= 0 && wx < w.field.cols && wy < w.field.rows &&
-                    w.field.at<uchar>(wy, wx);
-      run = inside && tissue.at<uchar>(wy, wx) ? run + 1 : 0;
-      hits = std::max(hits, run);
+      Point2d p{seg.a.x + t * (seg.b.x - seg.a.x), seg.a.y + t * (seg.b.y - seg.a.y)};
+      Point2d shallow{p.x + b.depth * b.line.nx, p.y + b.depth * b.line.ny};
+      Point2d inner{p.x + deep * b.line.nx, p.y + deep * b.line.ny};
+      bool hit = false;
+      int wx = static_cast<int>(inner.x / w.fx), wy = static_cast<int>(inner.y / w.fy);
+      int sx = static_cast<int>(shallow.x), sy = static_cast<int>(shallow.y);
+      if (wx >= 0 && wy >= 0 && wx < w.field.cols && wy < w.field.rows && w.field.at<uchar>(wy, wx) &&
+          sx >= 0 && sy >= 0 && sx < r.image.width() && sy < r.image.height()) {
+        bool corner = false;
+        for (const Blade& o : blades) corner = corner || o.line.SignedDistance(shallow) < o.depth - 1e-9;
+        hit = !corner && tissue.at<uchar>(wy, wx) &&
+              (!r.s.direct_found || r.Residual(sx, sy) > threshold);
+      }
+      run = hit ? run + 1 : 0;
+      best = std::max(best, run);
     }
-    if (hits >= 3) out.push_back(sm.side);
+    if (best >= 3) out.push_back(b.side);
   }
   return out;
 }
@@ -182,12 +216,13 @@ AnatomyMeasurement FindAnatomy(const Image& image, const FieldMeasurement& field
   FieldFrame frame(field.rotation_deg);
   std::vector<Point2d> corners = BoundaryCorners(s.anatomy, w);
   BoxExtents e = metrics_internal::ExtentsOf(frame, corners);
-  std::vector<Side> clipped = ClippedSides(field, w, s, spacing);
-  if (options.refine && s.direct_found) {
-    Refiner r{image, w, s, frame, context.linear, cv::Mat()};
-    cv::dilate(s.anatomy, r.near, cv::getStructuringElement(cv::MORPH_ELLIPSE, cv::Size(5, 5)));
-    double threshold = std::max(s.threshold, 5.0 * FullResolutionNoise(r));
-    if (threshold < 0.8 * s.tissue_level) RefineSides(r, threshold, e);
+  Refiner r{image, w, s, frame, context.linear, cv::Mat(), VisibleBlades(field, spacing)};
+  cv::dilate(s.anatomy, r.near, cv::getStructuringElement(cv::MORPH_ELLIPSE, cv::Size(7, 7)));
+  double threshold = s.threshold;
+  if (s.direct_found) threshold = std::max(s.threshold, 5.0 * FullResolutionNoise(r));
+  std::vector<Side> clipped = ClippedSides(field, r, r.blades, threshold, spacing);
+  if (options.refine && s.direct_found && threshold < 0.8 * s.tissue_level) {
+    RefineSides(r, threshold, e);
   }
   // Clipped sides reach the blade; no side goes past the field.
   BoxExtents f = metrics_internal::ExtentsOf(frame, field.polygon_px);

@@ -19,6 +19,7 @@ struct Working {
   double fx = 1.0;      // full-resolution pixels per working pixel, x
   double fy = 1.0;      // same, y
   double erosion_px = 0.0;  // working pixels removed inside the field edge
+  bool linear = false;      // log of a linear image: levels are physical
 };
 
 // The direct-exposure model: a smooth surface over the direct-exposure level, so that
@@ -28,6 +29,7 @@ struct Segmentation {
   cv::Mat residual;     // CV_32F, R at working resolution (valid inside `field`)
   cv::Mat anatomy;      // CV_8U, anatomy after markers and shields are removed
   cv::Mat metal;        // CV_8U, metal that is not anatomy (markers, shields)
+  cv::Mat direct;       // CV_8U, direct exposure
   std::array<double, 6> surface{};  // quadratic in working pixel coordinates
   double threshold = 0.0;   // R above which a pixel is tissue
   double noise = 0.0;       // robust sigma of R in direct exposure, working resolution

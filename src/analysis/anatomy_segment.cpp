@@ -134,24 +134,33 @@ cv::Mat RemoveMetal(const Working& w, Segmentation& s, const cv::Mat& direct, do
   std::vector<float> blocked = Values(w.log, outside);
   std::vector<float> open = Values(w.log, direct);
   double cut = -1e300;
-  if (blocked.size() >= 100 && !open.empty()) {
+  // Only a linear image keeps the blocked level physical; processing remaps it freely.
+  if (w.linear && blocked.size() >= 100 && !open.empty()) {
     double lb = Median(blocked), ld = Median(open);
     if (ld - lb > 6.0 * std::max(s.noise, 1e-6)) cut = lb + 0.35 * (ld - lb);
   }
-  // Reference for the relative test: the 90th percentile of tissue attenuation.
-  double tissue_p90 = Quantile(Values(s.residual, s.anatomy), 0.9);
+  // References for the relative tests: the largest piece of anatomy (the patient).
   cv::Mat labels, stats, centroids;
   int n = cv::connectedComponentsWithStats(s.anatomy, labels, stats, centroids, 8, CV_32S);
+  int largest = 0;
+  for (int i = 1; i < n; ++i) {
+    if (largest == 0 || stats.at<int>(i, cv::CC_STAT_AREA) > stats.at<int>(largest, cv::CC_STAT_AREA)) {
+      largest = i;
+    }
+  }
+  std::vector<float> body = largest ? Values(s.residual, labels == largest) : std::vector<float>{};
+  double body_median = Median(body);
+  double body_p90 = Quantile(body, 0.9);
   for (int i = 1; i < n; ++i) {
     int area = stats.at<int>(i, cv::CC_STAT_AREA);
+    if (i == largest || area > 150 * min_px) continue;  // markers are under 1500 mm2
     cv::Mat blob = labels == i;
-    std::vector<float> lv = Values(w.log, blob);
-    std::vector<float> rv = Values(s.residual, blob);
-    bool dark_absolute = Median(lv) < cut;
-    bool dark_relative = area < 0.2 * cv::countNonZero(s.anatomy) &&
-                         Median(rv) > 1.5 * tissue_p90;
-    if (area > 40 * min_px || !(dark_absolute || dark_relative)) continue;
-    if (DirectShareAround(blob, w.field, direct) < 0.6) continue;
+    double blob_log = Median(Values(w.log, blob));
+    double blob_r = Median(Values(s.residual, blob));
+    // Lead is darker than the patient's typical tissue whatever the processing; a loose bit of
+    // soft tissue is lighter.
+    bool dark = blob_log < cut || blob_r > 1.5 * body_p90 || blob_r > body_median;
+    if (!dark || DirectShareAround(blob, w.field, direct) < 0.6) continue;
     metal |= blob;
   }
   // Metal touching the body (a marker on the skin line, a shield across the field edge):
@@ -160,7 +169,8 @@ cv::Mat RemoveMetal(const Working& w, Segmentation& s, const cv::Mat& direct, do
     cv::Mat dark = (w.log < cut) & w.field;
     n = cv::connectedComponentsWithStats(dark, labels, stats, centroids, 8, CV_32S);
     for (int i = 1; i < n; ++i) {
-      if (stats.at<int>(i, cv::CC_STAT_AREA) < 2) continue;
+      int area = stats.at<int>(i, cv::CC_STAT_AREA);
+      if (area < 2 || area > 800 * min_px) continue;  // 8000 mm2: larger is a body, not lead
       cv::Mat blob = labels == i;
       if (DirectShareAround(blob, w.field, direct) >= 0.4) metal |= blob;
     }
@@ -172,6 +182,39 @@ cv::Mat RemoveMetal(const Working& w, Segmentation& s, const cv::Mat& direct, do
     s.markers_removed = cv::connectedComponents(metal, labels, 8) - 1;
   }
   return metal;
+}
+
+// Grows the direct exposure from its confident core through small steps only: processing
+// (unsharp masking, equalisation) shades the open field smoothly, while the skin line is a
+// step. Tissue stays out because every path into it crosses that step.
+cv::Mat GrowDirect(const Working& w, const Segmentation& s, const cv::Mat& seeds) {
+  std::vector<float> diffs;
+  for (int y = 0; y < w.log.rows; ++y) {
+    for (int x = 0; x + 1 < w.log.cols; ++x) {
+      if (seeds.at<uchar>(y, x) && seeds.at<uchar>(y, x + 1)) {
+        diffs.push_back(w.log.at<float>(y, x + 1) - w.log.at<float>(y, x));
+      }
+    }
+  }
+  double step = std::max(4.0 * RobustSigma(diffs), 0.05 * s.tissue_level);
+  double bound = 0.6 * s.tissue_level;
+  cv::Mat grown = seeds.clone();
+  std::vector<cv::Point> queue;
+  cv::findNonZero(seeds, queue);
+  const int dx[4] = {1, -1, 0, 0}, dy[4] = {0, 0, 1, -1};
+  for (size_t i = 0; i < queue.size(); ++i) {
+    cv::Point p = queue[i];
+    float lp = w.log.at<float>(p);
+    for (int k = 0; k < 4; ++k) {
+      cv::Point q(p.x + dx[k], p.y + dy[k]);
+      if (q.x < 0 || q.y < 0 || q.x >= w.log.cols || q.y >= w.log.rows) continue;
+      if (grown.at<uchar>(q) || !w.field.at<uchar>(q)) continue;
+      if (std::fabs(w.log.at<float>(q) - lp) > step || s.residual.at<float>(q) > bound) continue;
+      grown.at<uchar>(q) = 255;
+      queue.push_back(q);
+    }
+  }
+  return grown;
 }
 
 void RemoveSmall(cv::Mat& mask, double min_px) {
@@ -218,6 +261,15 @@ Working MakeWorking(const Image& image, const FieldMeasurement& field,
   w.fx = static_cast<double>(image.width()) / cols;
   w.fy = static_cast<double>(image.height()) / rows;
   w.log = small;
+  w.linear = linear;
+  // Electronically masked areas are exactly constant: no pixel there saw the beam.
+  cv::Mat constant;
+  if (field.blanked) {
+    cv::Mat lo, hi;
+    cv::erode(small, lo, cv::Mat());
+    cv::dilate(small, hi, cv::Mat());
+    constant = (hi - lo) == 0;
+  }
   for (int y = 0; y < rows; ++y) {
     float* p = w.log.ptr<float>(y);
     for (int x = 0; x < cols; ++x) p[x] = ToLog(p[x], linear);
@@ -243,6 +295,10 @@ Working MakeWorking(const Image& image, const FieldMeasurement& field,
   penumbra_mm = std::min(penumbra_mm, 15.0);
   w.erosion_px = std::ceil((0.75 * penumbra_mm + 1.5) / working_mm) + 1.0;
   cv::erode(w.field, w.field, Disk(static_cast<int>(w.erosion_px)));
+  if (!constant.empty()) {
+    cv::dilate(constant, constant, Disk(static_cast<int>(w.erosion_px)));
+    w.field &= ~constant;
+  }
   return w;
 }
 
@@ -284,9 +340,10 @@ Segmentation Segment(const Working& w, const std::array<double, 2>& spacing, dou
   }
   s.threshold = std::clamp(std::max(5.0 * s.noise, 0.1 * s.tissue_level), 0.0,
                            0.5 * s.tissue_level);
-  s.anatomy = (s.residual > s.threshold) & w.field;
+  cv::Mat direct = GrowDirect(w, s, (s.residual <= s.threshold) & w.field);
+  s.direct = direct;
+  s.anatomy = w.field & ~direct;
   cv::morphologyEx(s.anatomy, s.anatomy, cv::MORPH_OPEN, Disk(1));
-  cv::Mat direct = (s.residual <= s.threshold) & w.field;
   s.metal = RemoveMetal(w, s, direct, min_px);
   cv::morphologyEx(s.anatomy, s.anatomy, cv::MORPH_OPEN, Disk(1));
   RemoveSmall(s.anatomy, min_px);
