@@ -20,5 +20,7 @@ void AddOverlayCommand(CLI::App& app);
 void AddReportCommand(CLI::App& app);
 void AddListenCommand(CLI::App& app);
 void AddPullCommand(CLI::App& app);
+void AddQcFieldCommand(CLI::App& app);
+void AddSynthQcCommand(CLI::App& app);
 
 }  // namespace beamtrim::cli
