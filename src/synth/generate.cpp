@@ -102,9 +102,10 @@ Image ProcessedValues(const SynthScenario& sc, const Image& kerma, const std::ve
   Image out(kerma.width(), kerma.height());
   for (size_t i = 0; i < kerma.size(); ++i) {
     double t = (sp[i] - lo) / (hi - lo);
-    // Soft shoulder and toe around a linear middle, as display curves do.
-    double s = 0.5 + 0.47 * std::tanh(2.2 * (t - 0.5)) / std::tanh(1.1);
-    out.data()[i] = static_cast<float>(std::clamp(s, 0.0, 1.0));
+    // Logistic display curve: a soft toe and shoulder that compress, but never flatten, the
+    // collimated plateau and the direct exposure (a flat region would look like masking).
+    double s = 1.0 / (1.0 + std::exp(-5.0 * (t - 0.5)));
+    out.data()[i] = static_cast<float>(s);
   }
   return out;
 }
