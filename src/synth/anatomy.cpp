@@ -171,9 +171,10 @@ void Forearm(Builder& b) {
 }
 
 void Knee(Builder& b, bool lateral) {
-  b.Limb(0, -420, 0, -20, 70);
-  b.Limb(0, 20, 0, 420, 50);
-  b.Body(0, 0, 62, 62, 55);
+  b.Limb(0, -420, 0, -250, 70);  // the thigh narrows towards the knee
+  b.Limb(0, -250, 0, -20, 56);
+  b.Limb(0, 20, 0, 420, 48);
+  b.Body(0, 0, 58, 60, 55);
   b.Bone(0, -420, 0, -40, 15);
   b.Bone(5, 40, 5, 420, 14);
   b.Ellipsoid(0, 35, 40, 15, 35, 0, Material::kBone);

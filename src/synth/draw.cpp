@@ -202,7 +202,7 @@ void DrawBeam(SynthScenario& sc, const BodySpec& spec, std::mt19937_64& rng) {
   // mAs so that the detector behind the patient gets about the target kerma (EI = 100 K[uGy],
   // IEC 62494-1), with the spread of real practice (sd ~ 1.5 DI units).
   double mu = 0.021 * std::pow(75.0 / sc.kvp, 0.35);
-  double behind = std::exp(-mu * 0.6 * spec.thickness * sc.anatomy_scale) * (sc.grid ? 1.6 : 1.2);
+  double behind = std::exp(-mu * 0.85 * spec.thickness * sc.anatomy_scale) * (sc.grid ? 1.3 : 1.1);
   double want = sc.target_exposure_index / 100.0 * std::pow(10.0, std::normal_distribution<double>(0, 0.15)(rng));
   double k0 = want / std::max(behind, 1e-4);
   double per_mas = sc.tube_output_ugy_per_mas_at_1m * (1000.0 / sc.sid_mm) * (1000.0 / sc.sid_mm);
