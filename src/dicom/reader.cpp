@@ -163,12 +163,15 @@ Status CheckNativeLength(const Context& c, DcmElement& pixel, const RadiographHe
   uint64_t frame = static_cast<uint64_t>(h.rows) * h.columns * (h.bits_allocated / 8);
   uint64_t need = frame * static_cast<uint64_t>(h.number_of_frames);
   uint64_t have = pixel.getLength();
-  // A deflated file is smaller than its inflated data set, so only the length test applies.
-  if (have < need || (!deflated && have > static_cast<uint64_t>(c.file_size))) {
+  // The value is exactly that long, plus one pad byte when odd (PS3.5 7.1.1); more means the
+  // header describes something else. A deflated file is smaller than its inflated data
+  // set, so the file size bound applies to the other syntaxes only.
+  uint64_t padded = need + (need % 2);
+  if (have < need || have > padded || (!deflated && have > static_cast<uint64_t>(c.file_size))) {
     return Fail(c, ErrorKind::kMalformed, DCM_PixelData,
                 "holds " + std::to_string(have) + " bytes, but rows x columns x bits allocated x "
-                "frames needs " + std::to_string(need) + " and the file has " +
-                std::to_string(c.file_size));
+                "frames needs exactly " + std::to_string(need) + " (file size " +
+                std::to_string(c.file_size) + ")");
   }
   return Status::Ok();
 }

@@ -187,3 +187,18 @@ TEST_CASE("DeeplyNestedSequencesAreRefusedBeforeParsing") {
   CheckError(r, f, "(FFFE,E000)");
   CHECK(r.error().kind == ErrorKind::kMalformed);
 }
+
+TEST_CASE("PixelDataLongerThanRowsTimesColumnsIsRejected") {
+  // PS3.5 8.1.1 / 7.1.1: native pixel data is exactly rows x columns x bits allocated / 8
+  // per frame (plus one pad byte when odd). Extra data means the header is wrong.
+  TempDir dir("long");
+  DcmFileFormat ff;
+  DcmDataset& ds = *ff.getDataset();
+  beamtrim::test::PutMinimalDx(ds, 16, 16);
+  beamtrim::test::PutRamp16(ds, 16 * 32);
+  std::filesystem::path f = dir / "long.dcm";
+  REQUIRE(beamtrim::test::SaveDcmtk(ff, f));
+  Result<Radiograph> r = ReadRadiograph(f);
+  CheckError(r, f, "(7FE0,0010)");
+  CHECK(r.error().reason.find("512") != std::string::npos);  // 16 x 16 x 2 bytes needed
+}
