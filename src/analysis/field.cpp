@@ -117,7 +117,7 @@ double SideAngle(Side s, const Line& l) {
 
 double SideConfidence(const SideEvidence& e, double range) {
   const double rel = e.step / std::max(range, 1e-9);
-  const double margin = std::min({(e.support - 0.5) / 0.5, (0.1 - e.bright) / 0.1,
+  const double margin = std::min({(e.support - 0.6) / 0.4, (0.1 - e.bright) / 0.1,
                                   (0.12 - e.texture) / 0.12, (0.35 - e.flatness) / 0.35,
                                   (rel - 0.08) / 0.12, 1.0});
   return std::clamp(0.5 + 0.5 * margin, 0.0, 1.0);

@@ -44,19 +44,38 @@ bool Compatible(const Rectangle& r, Side s, double position) {
   return low ? position + min_size <= other->position : other->position + min_size <= position;
 }
 
+// All blades block the same beam: every blocked plateau lies well below the open level of the
+// strongest side. A side whose "outside" is as bright as that open level is not a blade
+// (typically an edge-enhancement halo or an anatomy edge inside the field).
+void DropInconsistent(Rectangle& r) {
+  const SideEvidence* ref = nullptr;
+  for (const auto& s : r.sides) {
+    if (s && (!ref || s->score > ref->score)) ref = &*s;
+  }
+  if (!ref) return;
+  const double limit = ref->outside + 0.5 * (ref->inside - ref->outside);
+  const double ref_outside = ref->outside, ref_inside = ref->inside;
+  for (auto& s : r.sides) {
+    if (s && (s->outside > limit || s->inside < ref_outside + 0.25 * (ref_inside - ref_outside))) {
+      s.reset();
+    }
+  }
+}
+
 }  // namespace
 
 Rectangle BestRectangle(const Frame& frame, double range, double depth_px) {
   Rectangle r;
   r.angle_deg = frame.angle_deg;
-  for (int pass = 0; pass < 3; ++pass) {
+  for (int pass = 0; pass < 4; ++pass) {
     bool changed = false;
     for (Side s : kAllSides) {
       const Span span = SpanFor(r, s, frame);
+      const bool bounded = pass > 0;
       std::optional<SideEvidence> best;
       for (int p : SideCandidates(frame, s, span, 6)) {
         if (!Compatible(r, s, p)) continue;
-        SideEvidence ev = EvaluateSide(frame, s, p, span, range, depth_px);
+        SideEvidence ev = EvaluateSide(frame, s, p, span, range, depth_px, bounded);
         if (ev.blade && (!best || ev.score > best->score)) best = ev;
       }
       auto& slot = r.sides[static_cast<int>(s)];
@@ -65,8 +84,18 @@ Rectangle BestRectangle(const Frame& frame, double range, double depth_px) {
       changed |= differs;
       slot = best;
     }
+    DropInconsistent(r);
     if (!changed && pass > 0) break;
   }
+  // Final check of every side over the span its neighbours leave.
+  for (Side s : kAllSides) {
+    auto& slot = r.sides[static_cast<int>(s)];
+    if (!slot) continue;
+    SideEvidence ev = EvaluateSide(frame, s, static_cast<int>(slot->position), SpanFor(r, s, frame),
+                                   range, depth_px, true);
+    if (ev.blade) slot = ev; else slot.reset();
+  }
+  DropInconsistent(r);
   // A side with bright regions far beyond its dark strip is kept only when a side with a
   // clean half-plane shows the same blocked level (a second exposure beyond a real blade);
   // otherwise it is more likely an anatomy edge with tissue beyond.
@@ -75,7 +104,7 @@ Rectangle BestRectangle(const Frame& frame, double range, double depth_px) {
     if (!slot || slot->bright_far <= 0.1) continue;
     bool confirmed = false;
     for (const auto& other : r.sides) {
-      if (other && other->bright_far <= 0.1 &&
+      if (other && other->bright_far <= 0.1 && slot->bright <= 0.02 &&
           std::fabs(other->outside - slot->outside) <= 0.3 * slot->step) {
         confirmed = true;
       }

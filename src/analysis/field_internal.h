@@ -83,7 +83,8 @@ struct SideEvidence {
   bool blade = false;      // passes every blade test
   double position = 0.0;   // boundary coordinate in frame pixels (column or row index)
   double score = 0.0;
-  double support = 0.0;    // fraction of the edge length with the step
+  double support = 0.0;    // of the positions with an open inside, the share with the step
+  double coverage = 0.0;   // share of the whole span with the step
   double step = 0.0;       // inside level - outside level (working value units)
   double outside = 0.0;    // blocked plateau level next to the edge
   double inside = 0.0;     // open level next to the edge
@@ -102,8 +103,10 @@ struct Span {
 
 // Boundary positions with a polarity-consistent step, strongest first (at most `count`).
 std::vector<int> SideCandidates(const Frame& frame, Side side, Span span, int count);
+// `bounded`: the span is set by the perpendicular sides found so far, so the step must run
+// along most of it.
 SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span,
-                          double range, double depth_px);
+                          double range, double depth_px, bool bounded = false);
 
 // ---- Rectangle hypotheses (field_hypotheses.cpp) ----------------------------------------
 

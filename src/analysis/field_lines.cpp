@@ -167,7 +167,7 @@ std::vector<int> SideCandidates(const Frame& frame, Side side, Span span, int co
 }
 
 SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span, double range,
-                          double depth_px) {
+                          double depth_px, bool bounded) {
   // A blade edge runs at least a centimetre or so: shorter straight steps are objects.
   const int min_length_px = std::max(3, static_cast<int>(std::lround(depth_px / 4.0)));
   SideEvidence ev;
@@ -184,6 +184,12 @@ SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span
       float v;
       if (view.Get(frame.value, k, t, true, &v)) { so += v; ++no; }
       if (view.Get(frame.value, k, t, false, &v)) { si += v; ++ni; }
+    }
+    // A blade shadow within a few millimetres of the image border: the strip just outside
+    // the edge is all there is of the blocked plateau.
+    for (int k = gap - 1; no == 0 && k >= 1; --k) {
+      float v;
+      if (view.Get(frame.value, k, t, true, &v)) { so += v; ++no; }
     }
     // Next to the image border the outside strip may be narrower than the band.
     if (no == 0 || ni < band / 2) continue;
@@ -219,6 +225,7 @@ SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span
     supported += diffs[i] > 0.5 * ev.step ? 1 : 0;
   }
   ev.support = open ? static_cast<double>(supported) / open : 0.0;
+  ev.coverage = static_cast<double>(supported) / diffs.size();
   if (supported < min_length_px) {
     ev.why_not = "edge too short";
     return ev;
@@ -254,10 +261,14 @@ SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span
   ev.bright_far = nf ? static_cast<double>(bf) / nf : 0.0;
   ev.texture = n ? static_cast<double>(textured) / n : 0.0;
   const double rel = ev.step / std::max(1e-9, range);
-  ev.score = rel * ev.support * (1.0 - ev.bright) * (1.0 - ev.texture) *
+  // Support counts most: a line at a slightly wrong angle still has a partial step, and only
+  // a steep penalty lets the true angle win.
+  const double sup2 = ev.support * ev.support;
+  ev.score = rel * sup2 * sup2 * ev.coverage * ev.coverage * (1.0 - ev.bright) * (1.0 - ev.texture) *
              (1.0 - std::clamp(ev.flatness, 0.0, 1.0));
   if (rel < 0.08) ev.why_not = "contrast too low";
-  else if (ev.support < 0.5) ev.why_not = "step along less than half of the edge";
+  else if (ev.support < 0.6) ev.why_not = "step along less than 60 % of the edge";
+  else if (bounded && ev.coverage < 0.5) ev.why_not = "step along less than half of the field side";
   else if (ev.bright > 0.1) ev.why_not = "bright structures beyond the edge";
   else if (ev.texture > 0.12) ev.why_not = "structured (anatomy) beyond the edge";
   else if (ev.flatness > 0.35) ev.why_not = "no flat blocked plateau beyond the edge";

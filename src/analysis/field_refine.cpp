@@ -171,7 +171,8 @@ ProfileSet SampleProfiles(const Image& image, const Line& line, Point2d a, Point
   auto is_valid = [&](double x, double y) {
     if (!valid || valid->empty()) return true;
     const int wx = static_cast<int>(x / factor), wy = static_cast<int>(y / factor);
-    if (wx < 0 || wy < 0 || wx >= valid->cols || wy >= valid->rows) return false;
+    // Beyond the image border the sampler repeats the border pixels: harmless for levels.
+    if (wx < 0 || wy < 0 || wx >= valid->cols || wy >= valid->rows) return true;
     return (*valid)(wy, wx) != 0;
   };
   std::vector<double> prof(m);
