@@ -20,6 +20,8 @@ void AddOverlayCommand(CLI::App& app);
 void AddReportCommand(CLI::App& app);
 void AddListenCommand(CLI::App& app);
 void AddPullCommand(CLI::App& app);
+void AddScanCommand(CLI::App& app);
+void AddTablesCommand(CLI::App& app);
 void AddQcFieldCommand(CLI::App& app);
 void AddSynthQcCommand(CLI::App& app);
 

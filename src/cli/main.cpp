@@ -31,6 +31,8 @@ int main(int argc, char** argv) {
   beamtrim::cli::AddReportCommand(app);
   beamtrim::cli::AddListenCommand(app);
   beamtrim::cli::AddPullCommand(app);
+  beamtrim::cli::AddScanCommand(app);
+  beamtrim::cli::AddTablesCommand(app);
   beamtrim::cli::AddQcFieldCommand(app);
   beamtrim::cli::AddSynthQcCommand(app);
 
