@@ -168,13 +168,46 @@ std::vector<QcMarker> FindMarkersIn(const WorkingImages& work, std::array<double
   cv::Mat labels, stats, centroids;
   int n = cv::connectedComponentsWithStats(mask, labels, stats, centroids, 8, CV_32S);
   double pixel_area = spacing_mm[0] * spacing_mm[1];
+  std::vector<cv::Rect> boxes(n);
+  std::vector<int> areas(n), root(n);
+  for (int label = 1; label < n; ++label) {
+    boxes[label] = cv::Rect(stats.at<int>(label, cv::CC_STAT_LEFT), stats.at<int>(label, cv::CC_STAT_TOP),
+                            stats.at<int>(label, cv::CC_STAT_WIDTH), stats.at<int>(label, cv::CC_STAT_HEIGHT));
+    areas[label] = stats.at<int>(label, cv::CC_STAT_AREA);
+    root[label] = label;
+  }
+  // A disc over a field corner can fall apart into a large piece and slivers (the background
+  // estimate keeps part of it): fold a piece lying within a larger one's box into it.
+  for (int small = 1; small < n; ++small) {
+    int host = 0;
+    for (int big = 1; big < n; ++big) {
+      if (big == small || areas[big] <= areas[small]) continue;
+      cv::Rect overlap = boxes[small] & boxes[big];
+      if (overlap.area() >= 0.8 * boxes[small].area() && (host == 0 || areas[big] > areas[host])) host = big;
+    }
+    if (host != 0) root[small] = host;
+  }
+  for (int label = 1; label < n; ++label) {
+    int r = label;
+    while (root[r] != r) r = root[r];
+    root[label] = r;
+  }
+  std::vector<int> merged_area(n, 0);
+  std::vector<cv::Rect> merged_box(n);
+  for (int label = 1; label < n; ++label) {
+    merged_area[root[label]] += areas[label];
+    merged_box[root[label]] = merged_box[root[label]].area() == 0 ? boxes[label] : (merged_box[root[label]] | boxes[label]);
+  }
+  for (int r = 0; r < labels.rows; ++r) {
+    int* row = labels.ptr<int>(r);
+    for (int c = 0; c < labels.cols; ++c) row[c] = root[row[c]];
+  }
   std::vector<QcMarker> markers;
   for (int label = 1; label < n; ++label) {
-    double area = stats.at<int>(label, cv::CC_STAT_AREA) * pixel_area;
+    if (root[label] != label) continue;
+    double area = merged_area[label] * pixel_area;
     if (area < options.min_area_mm2 || area > options.max_area_mm2) continue;
-    cv::Rect box(stats.at<int>(label, cv::CC_STAT_LEFT), stats.at<int>(label, cv::CC_STAT_TOP),
-                 stats.at<int>(label, cv::CC_STAT_WIDTH), stats.at<int>(label, cv::CC_STAT_HEIGHT));
-    markers.push_back(Describe(work, labels, label, box, spacing_mm));
+    markers.push_back(Describe(work, labels, label, merged_box[label], spacing_mm));
   }
   return markers;
 }

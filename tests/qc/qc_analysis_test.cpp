@@ -149,6 +149,14 @@ TEST_CASE("CornerMarkersDefineTheLightEdges") {
     REQUIRE_MESSAGE(edge.misalignment_mm, edge.note);
     CHECK(edge.light_source == "corner markers");
     double truth = QcTruthEdgeMm(spec, s, EdgeDefinition::kQuarterMaximum) - e.truth.light_mm[static_cast<int>(s)];
+    INFO(SideName(s), " measured ", *edge.misalignment_mm, " truth ", truth);
+    std::string found;
+    for (const QcMarker& m : r->markers) {
+      found += std::to_string(m.centre_px.x) + "," + std::to_string(m.centre_px.y) + " " +
+               QcMarkerPlacementName(m.placement) + "; ";
+    }
+    for (const Point2d& p : e.truth.marker_centres_px) found += "truth " + std::to_string(p.x) + "," + std::to_string(p.y) + "; ";
+    INFO(found);
     CHECK(std::fabs(*edge.misalignment_mm - truth) < 0.3);
   }
 }
