@@ -270,10 +270,10 @@ class Puller {
   T_ASC_PresentationContextID retrieve_id_ = 0;
 };
 
-bool AlreadyHave(const Spool& spool, const SpoolSink& sink, const std::string& uid) {
-  if (sink.has_instance && sink.has_instance(uid)) return true;
-  // In the spool but not recorded: ConsumePending has just failed on it; fetch it again.
-  return false;
+// A file in the spool without a store row was offered to the sink by ConsumePending at the
+// start and failed there, so only the store decides what is already here.
+bool AlreadyHave(const SpoolSink& sink, const std::string& uid) {
+  return sink.has_instance && sink.has_instance(uid);
 }
 
 // Sub-operations of C-MOVE arrive at our own short-lived Storage SCP.
@@ -283,23 +283,27 @@ class MoveReceiver {
     listen_.port = options.move_port;
     listen_.ae_title = options.move_destination;
     listen_.dimse_timeout_s = options.dimse_timeout_s;
+    // Only the archive may deliver to this short-lived listener.
+    listen_.allowed_calling_aets = {options.archive.ae_title};
     thread_ = std::thread([this, &spool, &sink] {
-      result_ = RunStorageServer(listen_, spool, sink, stop_, [this] { ready_ = true; });
-      ready_ = true;
+      result_ = RunStorageServer(listen_, spool, sink, stop_, [this] { listening_ = true; });
+      done_ = true;
     });
-    while (!ready_) std::this_thread::sleep_for(std::chrono::milliseconds(10));
+    while (!listening_ && !done_) std::this_thread::sleep_for(std::chrono::milliseconds(10));
   }
+  bool listening() const { return listening_; }
   Result<ListenSummary> Finish() {
     stop_ = true;
     if (thread_.joinable()) thread_.join();
     return result_;
   }
-  ~MoveReceiver() { Finish(); }
+  ~MoveReceiver() { (void)Finish(); }
 
  private:
   ListenOptions listen_;
   std::atomic<bool> stop_{false};
-  std::atomic<bool> ready_{false};
+  std::atomic<bool> listening_{false};
+  std::atomic<bool> done_{false};
   Result<ListenSummary> result_ = ListenSummary{};
   std::thread thread_;
 };
@@ -377,7 +381,14 @@ Result<PullProgress> Pull(const PullOptions& options, const Spool& spool, const 
 
   Puller puller(options, spool, sink, stop);
   std::unique_ptr<MoveReceiver> receiver;
-  if (puller.UseMove()) receiver = std::make_unique<MoveReceiver>(options, spool, sink);
+  if (puller.UseMove()) {
+    receiver = std::make_unique<MoveReceiver>(options, spool, sink);
+    if (!receiver->listening()) {
+      Result<ListenSummary> failed = receiver->Finish();
+      return failed.ok() ? MakeError(ErrorKind::kNetwork, "", "C-MOVE receiver did not start")
+                         : failed.error();
+    }
+  }
   if (Status connected = puller.Connect(); !connected.ok()) return connected.error();
 
   Result<std::vector<std::string>> studies = puller.FindStudies();
@@ -399,7 +410,7 @@ Result<PullProgress> Pull(const PullOptions& options, const Spool& spool, const 
     for (const SeriesEntry& entry : series.value()) {
       std::vector<std::string> missing;
       for (const std::string& uid : entry.instances) {
-        if (AlreadyHave(spool, sink, uid)) {
+        if (AlreadyHave(sink, uid)) {
           ++progress.images_skipped;
         } else {
           missing.push_back(uid);

@@ -119,15 +119,21 @@ class ReceiverScp : public DcmThreadSCP {
     return sendSTOREResponse(info.presentationContextID, request, status);
   }
 
+  void notifyAssociationRequest(const T_ASC_Parameters& params,
+                                DcmSCPActionType& action) override {
+    calling_ae_ = params.DULparams.callingAPTitle;
+    DcmThreadSCP::notifyAssociationRequest(params, action);
+  }
+
   OFBool checkCalledAETitleAccepted(const OFString& called_ae) override {
     return called_ae == context_.options.ae_title.c_str();
   }
 
   OFBool checkCallingAETitleAccepted(const OFString& calling_ae) override {
-    calling_ae_ = calling_ae.c_str();
     const auto& allowed = context_.options.allowed_calling_aets;
     if (allowed.empty()) return OFTrue;
-    return std::find(allowed.begin(), allowed.end(), calling_ae_) != allowed.end();
+    return std::find(allowed.begin(), allowed.end(), std::string(calling_ae.c_str())) !=
+           allowed.end();
   }
 
   void refuseAssociation(const DcmRefuseReasonType reason) override {

@@ -1,32 +1,16 @@
-// The sink that measures a spool file and records it in the store.
+// The sink that measures a spool file and records it in the store, through the same
+// one-file entry point the batch scan offers to services (scan.h: MeasureAndStore).
+#include <memory>
+
 #include <spdlog/spdlog.h>
 
-#include "beamtrim/dicom.h"
 #include "beamtrim/measure.h"
 #include "beamtrim/network.h"
+#include "beamtrim/scan.h"
 #include "beamtrim/store.h"
 
 namespace beamtrim {
 namespace {
-
-Status MeasureAndPut(Store& store, const Measurer& measurer, const std::filesystem::path& file) {
-  Result<FileIdentity> identity = StatFile(file);
-  if (!identity.ok()) return identity.error();
-  MeasuredImage image;
-  image.record = measurer.MeasureFile(file);
-  // The two identifiers only feed the store's keyed hashes; they are not written as such.
-  ReadOptions header_only;
-  header_only.header_only = true;
-  if (Result<Radiograph> header = ReadRadiograph(file, header_only); header.ok()) {
-    image.accession_number = header->header.accession_number;
-    image.study_instance_uid = header->header.study_instance_uid;
-  }
-  Result<PutOutcome> outcome = store.Put(image, identity.value());
-  if (!outcome.ok()) return outcome.error();
-  spdlog::info("recorded {} ({}, {})", file.filename().string(),
-               RecordStatusName(image.record.status), PutOutcomeName(outcome.value()));
-  return Status::Ok();
-}
 
 bool IsRecorded(const Store& store, const std::filesystem::path& file) {
   Result<std::optional<StoredFile>> stored = store.Find(file.string());
@@ -38,9 +22,14 @@ bool IsRecorded(const Store& store, const std::filesystem::path& file) {
 }  // namespace
 
 SpoolSink MakeStoreSink(Store& store, const Measurer& measurer) {
+  std::shared_ptr<const ImageMeasurer> image_measurer = MakeDicomMeasurer(measurer);
   SpoolSink sink;
-  sink.consume = [&store, &measurer](const std::filesystem::path& file) {
-    return MeasureAndPut(store, measurer, file);
+  sink.consume = [&store, image_measurer](const std::filesystem::path& file) -> Status {
+    Result<ScanEvent> event = MeasureAndStore(store, *image_measurer, file);
+    if (!event.ok()) return event.error();
+    spdlog::info("recorded {} ({}{})", file.filename().string(), RecordStatusName(event->status),
+                 event->duplicate ? ", duplicate" : event->already_stored ? ", already stored" : "");
+    return Status::Ok();
   };
   sink.is_done = [&store](const std::filesystem::path& file) { return IsRecorded(store, file); };
   sink.has_instance = [&store](const std::string& sop_instance_uid) {

@@ -1,0 +1,283 @@
+// End-to-end tests of `beamtrim listen` against DCMTK's storescu/echoscu on 127.0.0.1.
+#include <doctest/doctest.h>
+
+#include <dcmtk/config/osconfig.h>
+#include <dcmtk/dcmdata/dcdeftag.h>
+#include <dcmtk/dcmdata/dcfilefo.h>
+
+#include "beamtrim/network.h"
+#include "beamtrim/store.h"
+#include "net/net_test_util.h"
+
+namespace beamtrim {
+namespace {
+
+using namespace nettest;
+
+struct ListenFixture {
+  TempDir dir;
+  int port = FreePort();
+  fs::path store = dir.path() / "audit.sqlite";
+  fs::path spool = dir.path() / "spool";
+  fs::path images = dir.path() / "images";
+
+  std::unique_ptr<Child> Start(std::vector<std::string> extra = {}) {
+    std::vector<std::string> argv = {BEAMTRIM_BINARY, "listen", "--port", std::to_string(port),
+                                     "--aet", "BEAMTRIM", "--store", store.string(),
+                                     "--spool", spool.string()};
+    argv.insert(argv.end(), extra.begin(), extra.end());
+    auto child = std::make_unique<Child>(argv, dir.path() / "listen.log");
+    REQUIRE_MESSAGE(WaitForPort(port), "listen did not open its port");
+    return child;
+  }
+
+  int StoreScu(const std::string& calling, const std::vector<fs::path>& files,
+               const std::string& log_name = "storescu.log") {
+    std::vector<std::string> argv = {"storescu", "-aet", calling, "-aec", "BEAMTRIM",
+                                     "127.0.0.1", std::to_string(port)};
+    for (const fs::path& f : files) argv.push_back(f.string());
+    return Run(argv, dir.path() / log_name);
+  }
+
+  std::string Log(const std::string& name) const {
+    std::ifstream in(dir.path() / name);
+    std::stringstream text;
+    text << in.rdbuf();
+    return text.str();
+  }
+
+  StoreCounts Counts() const {
+    StoreOptions options;
+    options.must_exist = true;
+    Result<std::unique_ptr<Store>> opened = Store::Open(store, options);
+    REQUIRE_MESSAGE(opened.ok(), (opened.ok() ? "" : opened.error().ToString()));
+    return (*opened)->Counts();
+  }
+
+  bool Recorded(const std::string& sop_uid) const {
+    StoreOptions options;
+    options.must_exist = true;
+    Result<std::unique_ptr<Store>> opened = Store::Open(store, options);
+    REQUIRE(opened.ok());
+    Result<std::optional<std::string>> json = (*opened)->RecordJson(sop_uid);
+    return json.ok() && json->has_value();
+  }
+
+  size_t SpoolCount() const {
+    size_t n = 0;
+    for (const auto& e : fs::directory_iterator(spool / "received")) n += e.is_regular_file();
+    return n;
+  }
+};
+
+int64_t Rows(const StoreCounts& c) { return c.ok + c.skipped + c.error; }
+
+std::string FileTransferSyntax(const fs::path& file) {
+  DcmFileFormat ff;
+  if (ff.loadFile(file.c_str()).bad()) return {};
+  OFString uid;
+  ff.getMetaInfo()->findAndGetOFString(DCM_TransferSyntaxUID, uid);
+  return uid.c_str();
+}
+
+// Every transfer syntax the writer offers (PS3.5 section 10 and Annex A lists them); each
+// object must arrive once, in the syntax it was sent in (no transcoding), and be recorded.
+TEST_CASE("StorescuFolderIsReceivedOnceEachAndRecorded") {
+  ListenFixture f;
+  fs::create_directories(f.images);
+  std::vector<SynthImage> sent;
+  int i = 0;
+  for (TransferSyntax syntax : AllTransferSyntaxes()) {
+    ++i;
+    sent.push_back(WriteSynthImage(f.images / ("img" + std::to_string(i) + ".dcm"),
+                                   "2.25.1001" + std::to_string(i), "2.25.2001", "20240110",
+                                   syntax, i % 2 ? "DX" : "CR"));
+  }
+  auto listen = f.Start({"--allow", "MODALITY1", "--allow", "MODALITY2"});
+  // C-ECHO (PS3.7 9.1.5) first: verification must be accepted.
+  CHECK(Run({"echoscu", "-aet", "MODALITY1", "-aec", "BEAMTRIM", "127.0.0.1",
+             std::to_string(f.port)},
+            f.dir.path() / "echo.log") == 0);
+  std::vector<fs::path> files;
+  for (const SynthImage& s : sent) files.push_back(s.file);
+  // storescu proposes each file's own syntax (plus uncompressed) unless told otherwise;
+  // -R proposes only the syntax of the file, so accepting it means no conversion happened.
+  std::vector<std::string> argv = {"storescu", "-R", "-aet", "MODALITY1", "-aec", "BEAMTRIM",
+                                   "127.0.0.1", std::to_string(f.port)};
+  for (const fs::path& p : files) argv.push_back(p.string());
+  CHECK_MESSAGE(Run(argv, f.dir.path() / "storescu.log") == 0, f.Log("storescu.log"));
+  // Sending the same objects again from another modality must not add rows.
+  CHECK(f.StoreScu("MODALITY2", files, "storescu2.log") == 0);
+  CHECK_MESSAGE(listen->Stop(SIGTERM) == 0, listen->Log());
+
+  CHECK(f.SpoolCount() == sent.size());
+  StoreCounts counts = f.Counts();
+  CHECK(Rows(counts) == static_cast<int64_t>(sent.size()));
+  for (const SynthImage& s : sent) {
+    CAPTURE(TransferSyntaxName(s.syntax));
+    CHECK(f.Recorded(s.sop_instance_uid));
+    fs::path received = f.spool / "received" / SpoolFileName(s.sop_instance_uid);
+    CHECK(FileTransferSyntax(received) == TransferSyntaxUid(s.syntax));
+  }
+}
+
+// PS3.8 9.3.4: an unknown calling AE title gets A-ASSOCIATE-RJ, "calling AE title not
+// recognized" (result 1 rejected-permanent, source 1 service-user, reason 3).
+TEST_CASE("UnknownCallingAeTitleIsRefused") {
+  ListenFixture f;
+  fs::create_directories(f.images);
+  SynthImage s = WriteSynthImage(f.images / "a.dcm", "2.25.3001", "2.25.3002", "20240110");
+  auto listen = f.Start({"--allow", "MODALITY1"});
+  CHECK(f.StoreScu("INTRUDER", {s.file}) != 0);
+  std::string log = f.Log("storescu.log");
+  CHECK_MESSAGE(log.find("Calling AE Title Not Recognized") != std::string::npos, log);
+  CHECK(listen->Stop(SIGTERM) == 0);
+  CHECK(f.SpoolCount() == 0);
+  CHECK(Rows(f.Counts()) == 0);
+}
+
+TEST_CASE("WrongCalledAeTitleIsRefused") {
+  ListenFixture f;
+  fs::create_directories(f.images);
+  SynthImage s = WriteSynthImage(f.images / "a.dcm", "2.25.3101", "2.25.3102", "20240110");
+  auto listen = f.Start();
+  CHECK(Run({"storescu", "-aet", "MODALITY1", "-aec", "SOMEONEELSE", "127.0.0.1",
+             std::to_string(f.port), s.file.string()},
+            f.dir.path() / "storescu.log") != 0);
+  CHECK(f.Log("storescu.log").find("Called AE Title Not Recognized") != std::string::npos);
+  CHECK(listen->Stop(SIGTERM) == 0);
+  CHECK(f.SpoolCount() == 0);
+}
+
+// A data set whose SOP Instance UID tries to climb out of the spool lands inside it.
+TEST_CASE("TraversalSopInstanceUidCannotWriteOutsideTheSpool") {
+  ListenFixture f;
+  fs::create_directories(f.images);
+  fs::path file = f.images / "evil.dcm";
+  WriteSynthImage(file, "2.25.4001", "2.25.4002", "20240110");
+  {
+    DcmFileFormat ff;
+    REQUIRE(ff.loadFile(file.c_str()).good());
+    const char* evil = "../../../../escaped";
+    ff.getDataset()->putAndInsertString(DCM_SOPInstanceUID, evil);
+    ff.getMetaInfo()->putAndInsertString(DCM_MediaStorageSOPInstanceUID, evil);
+    REQUIRE(ff.saveFile(file.c_str(), EXS_LittleEndianExplicit).good());
+  }
+  auto listen = f.Start();
+  f.StoreScu("MODALITY1", {file});  // storescu may itself refuse the invalid UID
+  CHECK(listen->Stop(SIGTERM) == 0);
+  for (const auto& e : fs::recursive_directory_iterator(f.dir.path())) {
+    CHECK(e.path().filename().string().find("escaped") == std::string::npos);
+  }
+  // Whatever arrived is inside received/, under a sanitised name.
+  for (const auto& e : fs::directory_iterator(f.spool / "received")) {
+    CHECK(e.path().filename().string().find("..") == std::string::npos);
+  }
+}
+
+// PS3.8 9.3: hand-built PDUs, so the client can stop in the middle of a data set.
+std::string Be16(int v) { return {char((v >> 8) & 0xff), char(v & 0xff)}; }
+std::string Be32(uint32_t v) { return Be16(int(v >> 16)) + Be16(int(v & 0xffff)); }
+std::string Le16(int v) { return {char(v & 0xff), char((v >> 8) & 0xff)}; }
+std::string Le32(uint32_t v) { return Le16(int(v & 0xffff)) + Le16(int(v >> 16)); }
+std::string Padded(std::string s, size_t n) {
+  s.resize(n, ' ');
+  return s;
+}
+std::string Item(int type, const std::string& body) {
+  return std::string(1, char(type)) + '\0' + Be16(int(body.size())) + body;
+}
+std::string EvenUid(std::string uid) {
+  if (uid.size() % 2) uid.push_back('\0');
+  return uid;
+}
+// Implicit VR little endian element (PS3.5 7.1.3).
+std::string Element(int group, int elem, const std::string& value) {
+  return Le16(group) + Le16(elem) + Le32(uint32_t(value.size())) + value;
+}
+
+std::string AssociateRq(const std::string& called, const std::string& calling) {
+  std::string pc = std::string(1, char(1)) + std::string(3, '\0') +
+                   Item(0x30, "1.2.840.10008.5.1.4.1.1.1.1") + Item(0x40, "1.2.840.10008.1.2");
+  std::string user = Item(0x51, Be32(16384)) + Item(0x52, "2.25.5551212");
+  std::string body = Be16(1) + std::string(2, '\0') + Padded(called, 16) + Padded(calling, 16) +
+                     std::string(32, '\0') + Item(0x10, "1.2.840.10008.3.1.1.1") +
+                     Item(0x20, pc) + Item(0x50, user);
+  return std::string(1, char(0x01)) + '\0' + Be32(uint32_t(body.size())) + body;
+}
+
+std::string PData(int control, const std::string& data) {
+  std::string pdv = Be32(uint32_t(data.size() + 2)) + char(1) + char(control) + data;
+  return std::string(1, char(0x04)) + '\0' + Be32(uint32_t(pdv.size())) + pdv;
+}
+
+bool SendAll(int fd, const std::string& bytes) {
+  return ::send(fd, bytes.data(), bytes.size(), MSG_NOSIGNAL) == ssize_t(bytes.size());
+}
+
+TEST_CASE("AssociationDroppedMidObjectLeavesNothingHalfWritten") {
+  ListenFixture f;
+  auto listen = f.Start();
+  int fd = ConnectLoopback(f.port);
+  REQUIRE(fd >= 0);
+  REQUIRE(SendAll(fd, AssociateRq("BEAMTRIM", "MODALITY1")));
+  char header[6] = {};
+  REQUIRE(::recv(fd, header, sizeof(header), MSG_WAITALL) == 6);
+  CHECK(header[0] == 0x02);  // A-ASSOCIATE-AC
+  uint32_t rest = (uint8_t(header[2]) << 24) | (uint8_t(header[3]) << 16) |
+                  (uint8_t(header[4]) << 8) | uint8_t(header[5]);
+  std::string skip(rest, '\0');
+  REQUIRE(::recv(fd, skip.data(), rest, MSG_WAITALL) == ssize_t(rest));
+  // C-STORE-RQ command (PS3.7 9.3.1.1), then the first part of a data set, then hang up.
+  std::string cmd = Element(0, 0x0002, EvenUid("1.2.840.10008.5.1.4.1.1.1.1")) +
+                    Element(0, 0x0100, Le16(0x0001)) + Element(0, 0x0110, Le16(7)) +
+                    Element(0, 0x0700, Le16(0)) + Element(0, 0x0800, Le16(0x0001)) +
+                    Element(0, 0x1000, EvenUid("2.25.6001"));
+  cmd = Element(0, 0x0000, Le32(uint32_t(cmd.size()))) + cmd;
+  REQUIRE(SendAll(fd, PData(0x03, cmd)));
+  std::string partial = Element(0x0008, 0x0016, EvenUid("1.2.840.10008.5.1.4.1.1.1.1")) +
+                        Element(0x0008, 0x0018, EvenUid("2.25.6001"));
+  REQUIRE(SendAll(fd, PData(0x00, partial)));  // not the last fragment
+  ::close(fd);
+
+  // The server stays up and still serves a complete object afterwards.
+  fs::create_directories(f.images);
+  SynthImage s = WriteSynthImage(f.images / "b.dcm", "2.25.6002", "2.25.6003", "20240110");
+  CHECK(f.StoreScu("MODALITY1", {s.file}) == 0);
+  CHECK(listen->Stop(SIGTERM) == 0);
+  CHECK(!f.Recorded("2.25.6001"));
+  CHECK(f.Recorded("2.25.6002"));
+  CHECK(Rows(f.Counts()) == 1);
+  CHECK(f.SpoolCount() == 1);
+  CHECK(fs::is_empty(f.spool / "tmp"));
+}
+
+// Objects left in the spool by a killed server are measured when it starts again.
+TEST_CASE("ObjectsLeftUnrecordedAreMeasuredOnTheNextStart") {
+  ListenFixture f;
+  fs::create_directories(f.spool / "received");
+  fs::create_directories(f.spool / "tmp");
+  WriteSynthImage(f.spool / "received" / SpoolFileName("2.25.7001"), "2.25.7001", "2.25.7002",
+                  "20240110");
+  std::ofstream(f.spool / "tmp" / "2.25.7003.dcm.1.0.part") << "partial";
+  auto listen = f.Start();
+  CHECK(listen->Stop(SIGTERM) == 0);
+  CHECK(f.Recorded("2.25.7001"));
+  CHECK(Rows(f.Counts()) == 1);
+  CHECK(fs::is_empty(f.spool / "tmp"));
+  // A second start finds nothing new to record.
+  auto again = f.Start();
+  CHECK(again->Stop(SIGTERM) == 0);
+  CHECK(Rows(f.Counts()) == 1);
+}
+
+TEST_CASE("ListenRejectsBadOptionsWithUsageError") {
+  TempDir dir;
+  CHECK(Run({BEAMTRIM_BINARY, "listen", "--port", "104", "--aet", "THIS_AE_IS_TOO_LONG",
+             "--store", (dir.path() / "s.sqlite").string(), "--spool",
+             (dir.path() / "sp").string()},
+            dir.path() / "log") == 2);
+}
+
+}  // namespace
+}  // namespace beamtrim
