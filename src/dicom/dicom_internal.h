@@ -53,4 +53,9 @@ Result<std::vector<uint8_t>> EncodeJ2k(const std::vector<int32_t>& values, int w
                                        int height, int precision, bool is_signed,
                                        bool lossless, double compression_ratio);
 
+// Decodes one RLE Lossless frame (PS3.5 Annex G) to native little-endian bytes, rows x
+// columns x bytes_per_sample, with every read bounds-checked. Errors carry the reason only.
+Result<std::vector<uint8_t>> DecodeRleFrame(const uint8_t* data, size_t size, int rows,
+                                            int columns, int bytes_per_sample);
+
 }  // namespace beamtrim::dicom_internal

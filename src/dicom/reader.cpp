@@ -48,6 +48,8 @@ const std::set<std::string>& SupportedSyntaxes() {
   return kUids;
 }
 
+constexpr const char* kRleUid = "1.2.840.10008.1.2.5";
+
 bool IsJpeg2000(const std::string& uid) {
   return uid == "1.2.840.10008.1.2.4.90" || uid == "1.2.840.10008.1.2.4.91";
 }
@@ -257,6 +259,24 @@ Result<Stored> DecodeJpeg2000(const Context& c, DcmElement& pixel, const Radiogr
   return std::move(img->values);
 }
 
+// RLE Lossless is decoded by beamtrim itself (src/dicom/rle.cpp explains why).
+Result<Stored> DecodeRle(const Context& c, DcmElement& pixel, const RadiographHeader& h) {
+  auto& pd = static_cast<DcmPixelData&>(pixel);
+  E_TransferSyntax xfer = EXS_Unknown;
+  const DcmRepresentationParameter* param = nullptr;
+  pd.getOriginalRepresentationKey(xfer, param);
+  DcmPixelSequence* seq = nullptr;
+  if (pd.getEncapsulatedRepresentation(xfer, param, seq).bad() || seq == nullptr) {
+    return Fail(c, ErrorKind::kMalformed, DCM_PixelData, "RLE pixel data is not encapsulated");
+  }
+  Result<std::vector<uint8_t>> bytes = FirstFrameBytes(c, *seq, h);
+  if (!bytes) return bytes.error();
+  Result<std::vector<uint8_t>> frame =
+      DecodeRleFrame(bytes->data(), bytes->size(), h.rows, h.columns, h.bits_allocated / 8);
+  if (!frame) return Fail(c, ErrorKind::kMalformed, DCM_PixelData, frame.error().reason);
+  return UnpackNative(*frame, h);
+}
+
 // Direction of the stored scale (docs/dicom.md "Pixel convention"). Pixel Intensity
 // Relationship Sign (0028,1041) decides when present: -1 means higher values = less X-ray
 // intensity (PS3.3 DX Image module). Without it: MONOCHROME1 shows low values white
@@ -302,8 +322,9 @@ Status DecodePixels(const Context& c, DcmDataset& ds, Radiograph& r) {
     return Fail(c, ErrorKind::kMalformed, DCM_PixelData, "no pixel data in the data set");
   }
   DcmXfer xfer(ds.getOriginalXfer());
-  Result<Stored> stored = IsJpeg2000(h.transfer_syntax_uid)
-                              ? DecodeJpeg2000(c, *pixel, h, r.notes)
+  Result<Stored> stored = IsJpeg2000(h.transfer_syntax_uid) ? DecodeJpeg2000(c, *pixel, h, r.notes)
+                          : h.transfer_syntax_uid == kRleUid
+                              ? DecodeRle(c, *pixel, h)
                               : DecodeWithDcmtk(c, ds, *pixel, h, xfer.isEncapsulated());
   if (!stored) return stored.error();
   Normalise(*stored, h, r.pixels);
