@@ -128,6 +128,16 @@ void LightFromMarkers(const std::vector<QcMarker>& markers, const EdgeFit& fit, 
     if (std::find(m.sides.begin(), m.sides.end(), side) == m.sides.end()) continue;
     (m.placement == QcMarkerPlacement::kEdge ? edge_markers : corner_markers).push_back(&m);
   }
+  // One marker per corner: a disc over a corner can leave a fragment beside it; keep the
+  // largest piece at each end of the side.
+  std::vector<const QcMarker*> ends(2, nullptr);
+  for (const QcMarker* m : corner_markers) {
+    Side other = m->sides[0] == side ? m->sides[1] : m->sides[0];
+    int end = (other == Side::kLeft || other == Side::kTop) ? 0 : 1;
+    if (!ends[end] || m->area_mm2 > ends[end]->area_mm2) ends[end] = m;
+  }
+  corner_markers.clear();
+  for (const QcMarker* m : ends) if (m) corner_markers.push_back(m);
   std::vector<const QcMarker*> used = edge_markers;
   if (corner_markers.size() >= 2) used.insert(used.end(), corner_markers.begin(), corner_markers.end());
   if (used.empty()) {
