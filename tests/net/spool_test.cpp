@@ -40,7 +40,7 @@ TEST_CASE("TraversalCharactersNeverReachTheFileName") {
     CHECK(name.front() != '.');
     CHECK(name.size() > 4);
     CHECK(name.substr(name.size() - 4) == ".dcm");
-    CHECK(name.find_first_not_of("0123456789.-abcdefuid") == std::string::npos);
+    CHECK(name.find_first_not_of("0123456789.-abcdefuim") == std::string::npos);
   }
 }
 
