@@ -6,7 +6,7 @@ set -euo pipefail
 cd "$(dirname "$0")/.."
 ./scripts/setup.sh
 ./scripts/build.sh
-(cd "${BUILD_DIR:-build}" && ctest --output-on-failure -j"$(nproc)" --timeout 900)
+(cd "${BUILD_DIR:-build}" && ctest --output-on-failure -j"$(nproc)" --timeout 1800)
 if [[ "${BEAMTRIM_SANITIZE:-0}" == 1 ]]; then
   ./scripts/sanitize.sh
 fi
