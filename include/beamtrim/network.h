@@ -50,9 +50,23 @@ class Spool {
   std::filesystem::path root_;
 };
 
-// Moves a fully written temporary file into place: fsync the file, rename it over `target`
-// (same file system), fsync the folder. A crash leaves either the old state or the new one.
-Status CommitSpoolFile(const std::filesystem::path& temp, const std::filesystem::path& target);
+// How a received object was committed into received/.
+enum class SpoolCommit {
+  kStored,        // it is now at the requested name
+  kAlreadyThere,  // a byte-identical copy was already in place: the new one was dropped
+  kStoredAside,   // another object held the name (same UID, different bytes): the new one
+                  // was kept beside it as "<name>-vN.dcm", so neither is lost
+};
+struct CommitResult {
+  std::filesystem::path path;  // where the object is now
+  SpoolCommit outcome = SpoolCommit::kStored;
+};
+
+// Moves a fully written temporary file into place without ever replacing a file already in
+// received/: fsync the file, link it in under a name that does not exist yet (atomic: the name
+// appears complete or not at all), fsync the folder. The temporary file is gone afterwards.
+Result<CommitResult> CommitSpoolFile(const std::filesystem::path& temp,
+                                     const std::filesystem::path& target);
 
 // Receives each complete spool file. `consume` measures and records it; `is_done` tells
 // whether a spool file is already recorded (used at start-up to find what is left to

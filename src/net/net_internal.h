@@ -28,11 +28,15 @@ std::vector<std::string> CompressedTransferSyntaxes();
 OFList<OFString> UncompressedTransferSyntaxes();
 
 // Writes `dataset` (received in `xfer`, kept as is) to spool.TempPath(uid) and commits it to
-// spool.ReceivedPath(uid), where uid is the data set's own SOP Instance UID. A data set without
-// a SOP Instance UID is refused. On failure nothing is left in received/ and the temp file is
-// removed. Returns the final path.
-Result<std::filesystem::path> WriteToSpool(const Spool& spool, DcmDataset& dataset,
-                                           E_TransferSyntax xfer);
+// spool.ReceivedPath(uid), where uid is the data set's own SOP Instance UID (CommitSpoolFile:
+// an existing file is never replaced). A data set without a SOP Instance UID is refused. On
+// failure nothing is left in received/ and the temp file is removed.
+Result<CommitResult> WriteToSpool(const Spool& spool, DcmDataset& dataset,
+                                  E_TransferSyntax xfer);
+
+// sink.consume(file), with any exception turned into an error naming the file: one bad object
+// must never end the listener or a pull.
+Status ConsumeGuarded(const SpoolSink& sink, const std::filesystem::path& file);
 
 // "DCMTK condition text" for error messages.
 std::string ConditionText(const OFCondition& condition);

@@ -45,14 +45,16 @@ class PullScu : public DcmSCU {
     OFString abstract_syntax, transfer_syntax;
     findPresentationContext(pres_id, abstract_syntax, transfer_syntax);
     E_TransferSyntax xfer = DcmXfer(transfer_syntax.c_str()).getXfer();
-    Result<std::filesystem::path> written = net::WriteToSpool(spool_, *dataset, xfer);
+    Result<CommitResult> written = net::WriteToSpool(spool_, *dataset, xfer);
     if (!written.ok()) {
       ++write_failures_;
       spdlog::error("pull: {}", written.error().ToString());
       status = STATUS_STORE_Refused_OutOfResources;
       return EC_Normal;
     }
-    written_.push_back(written.value());
+    if (std::find(written_.begin(), written_.end(), written->path) == written_.end()) {
+      written_.push_back(written->path);
+    }
     status = STATUS_Success;
     return EC_Normal;
   }
@@ -424,7 +426,7 @@ Result<PullProgress> Pull(const PullOptions& options, const Spool& spool, const 
     }
     // Record what this study brought before moving on, so an interruption loses little.
     for (const std::filesystem::path& file : puller.scu().TakeWritten()) {
-      Status status = sink.consume(file);
+      Status status = net::ConsumeGuarded(sink, file);
       if (status.ok()) {
         ++progress.images_received;
       } else {

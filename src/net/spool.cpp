@@ -4,8 +4,12 @@
 
 #include <algorithm>
 #include <atomic>
+#include <cerrno>
 #include <cstdio>
+#include <cstring>
+#include <fstream>
 #include <system_error>
+#include <vector>
 
 #include <dcmtk/dcmdata/dcdeftag.h>
 #include <dcmtk/dcmdata/dcfilefo.h>
@@ -39,6 +43,52 @@ Status SyncPath(const std::filesystem::path& path, int flags) {
   ::close(fd);
   if (rc != 0) return MakeError(ErrorKind::kUnreadable, path.string(), "flush to disk failed");
   return Status::Ok();
+}
+
+// Different objects kept under one SOP Instance UID: far more than any real resend pattern.
+constexpr int kMaxVersions = 100;
+
+void RemoveQuietly(const std::filesystem::path& path) {
+  std::error_code ec;
+  std::filesystem::remove(path, ec);
+}
+
+// "<stem>-vN.dcm": SpoolFileName never makes a 'v' after a '-', so this names no other UID.
+std::filesystem::path VersionedName(const std::filesystem::path& target, int version) {
+  return target.parent_path() /
+         (target.stem().string() + "-v" + std::to_string(version) + target.extension().string());
+}
+
+// Gives `temp` the name `target` unless `target` exists. Returns 0 or an errno value
+// (EEXIST when the name is taken). Both calls are atomic: the name appears complete or not at
+// all, and an existing file is never touched.
+int PlaceWithoutReplacing(const std::filesystem::path& temp, const std::filesystem::path& target) {
+  if (::renameat2(AT_FDCWD, temp.c_str(), AT_FDCWD, target.c_str(), RENAME_NOREPLACE) == 0) {
+    return 0;
+  }
+  if (errno != EINVAL && errno != ENOSYS) return errno;
+  // File systems without RENAME_NOREPLACE: a hard link fails on an existing name, too.
+  if (::link(temp.c_str(), target.c_str()) != 0) return errno;
+  RemoveQuietly(temp);
+  return 0;
+}
+
+bool SameBytes(const std::filesystem::path& a, const std::filesystem::path& b) {
+  std::error_code ec_a, ec_b;
+  if (std::filesystem::file_size(a, ec_a) != std::filesystem::file_size(b, ec_b) || ec_a || ec_b) {
+    return false;
+  }
+  std::ifstream in_a(a, std::ios::binary), in_b(b, std::ios::binary);
+  std::vector<char> buf_a(1 << 16), buf_b(1 << 16);
+  while (in_a && in_b) {
+    in_a.read(buf_a.data(), static_cast<std::streamsize>(buf_a.size()));
+    in_b.read(buf_b.data(), static_cast<std::streamsize>(buf_b.size()));
+    if (in_a.gcount() != in_b.gcount() ||
+        !std::equal(buf_a.begin(), buf_a.begin() + in_a.gcount(), buf_b.begin())) {
+      return false;
+    }
+  }
+  return in_a.eof() && in_b.eof();
 }
 
 }  // namespace
@@ -105,23 +155,42 @@ std::vector<std::filesystem::path> Spool::ReceivedFiles() const {
   return files;
 }
 
-Status CommitSpoolFile(const std::filesystem::path& temp, const std::filesystem::path& target) {
-  if (Status synced = SyncPath(temp, O_RDONLY); !synced.ok()) return synced;
-  std::error_code ec;
-  std::filesystem::rename(temp, target, ec);
-  if (ec) {
-    return MakeError(ErrorKind::kUnreadable, target.string(),
-                     "cannot move received object into place: " + ec.message());
+Result<CommitResult> CommitSpoolFile(const std::filesystem::path& temp,
+                                     const std::filesystem::path& target) {
+  if (Status synced = SyncPath(temp, O_RDONLY); !synced.ok()) return synced.error();
+  CommitResult result{target, SpoolCommit::kStored};
+  for (int version = 1; version <= kMaxVersions; ++version) {
+    result.path = version == 1 ? target : VersionedName(target, version);
+    int placed = PlaceWithoutReplacing(temp, result.path);
+    if (placed == 0) break;
+    if (placed != EEXIST) {
+      return MakeError(ErrorKind::kUnreadable, target.string(),
+                       std::string("cannot move received object into place: ") +
+                           std::strerror(placed));
+    }
+    if (SameBytes(temp, result.path)) {
+      RemoveQuietly(temp);
+      result.outcome = SpoolCommit::kAlreadyThere;
+      return result;
+    }
+    result.outcome = SpoolCommit::kStoredAside;
+    if (version == kMaxVersions) {
+      return MakeError(ErrorKind::kUnreadable, target.string(),
+                       "too many different objects with this SOP Instance UID");
+    }
   }
-  // The rename itself is durable only once the folder is flushed.
-  return SyncPath(target.parent_path(), O_RDONLY | O_DIRECTORY);
+  // The new name is durable only once the folder is flushed.
+  if (Status synced = SyncPath(target.parent_path(), O_RDONLY | O_DIRECTORY); !synced.ok()) {
+    return synced.error();
+  }
+  return result;
 }
 
 RecoverySummary ConsumePending(const Spool& spool, const SpoolSink& sink) {
   RecoverySummary summary;
   for (const std::filesystem::path& file : spool.ReceivedFiles()) {
     if (sink.is_done && sink.is_done(file)) continue;
-    Status status = sink.consume(file);
+    Status status = net::ConsumeGuarded(sink, file);
     if (status.ok()) {
       ++summary.consumed;
     } else {
@@ -133,6 +202,17 @@ RecoverySummary ConsumePending(const Spool& spool, const SpoolSink& sink) {
 }
 
 namespace net {
+
+Status ConsumeGuarded(const SpoolSink& sink, const std::filesystem::path& file) {
+  try {
+    return sink.consume(file);
+  } catch (const std::exception& e) {
+    return MakeError(ErrorKind::kInternal, file.string(),
+                     std::string("measuring failed unexpectedly: ") + e.what());
+  } catch (...) {
+    return MakeError(ErrorKind::kInternal, file.string(), "measuring failed unexpectedly");
+  }
+}
 
 std::string ConditionText(const OFCondition& condition) {
   return condition.text() ? condition.text() : "unknown DCMTK error";
@@ -184,8 +264,8 @@ OFList<OFString> AcceptedTransferSyntaxes() {
   return list;
 }
 
-Result<std::filesystem::path> WriteToSpool(const Spool& spool, DcmDataset& dataset,
-                                           E_TransferSyntax xfer) {
+Result<CommitResult> WriteToSpool(const Spool& spool, DcmDataset& dataset,
+                                  E_TransferSyntax xfer) {
   OFString uid;
   if (dataset.findAndGetOFString(DCM_SOPInstanceUID, uid).bad() || uid.empty()) {
     return MakeError(ErrorKind::kMalformed, "received object", "missing",
@@ -199,17 +279,13 @@ Result<std::filesystem::path> WriteToSpool(const Spool& spool, DcmDataset& datas
                                           EGL_recalcGL, EPD_noChange, 0, 0, EWM_createNewMeta);
   file_format.getAndRemoveDataset();  // hand it back: the caller still owns `dataset`
   if (cond.bad()) {
-    std::error_code ec;
-    std::filesystem::remove(temp, ec);
+    RemoveQuietly(temp);
     return MakeError(ErrorKind::kUnreadable, temp.string(),
                      "cannot write received object: " + ConditionText(cond));
   }
-  if (Status committed = CommitSpoolFile(temp, target); !committed.ok()) {
-    std::error_code ec;
-    std::filesystem::remove(temp, ec);
-    return committed.error();
-  }
-  return target;
+  Result<CommitResult> committed = CommitSpoolFile(temp, target);
+  if (!committed.ok()) RemoveQuietly(temp);
+  return committed;
 }
 
 }  // namespace net

@@ -63,7 +63,7 @@ class ConsumerQueue {
         queue_.pop_front();
       }
       if (sink_.is_done && sink_.is_done(file)) continue;
-      Status status = sink_.consume(file);
+      Status status = net::ConsumeGuarded(sink_, file);
       if (status.ok()) {
         ++consumed_;
       } else {
@@ -151,16 +151,28 @@ class ReceiverScp : public DcmThreadSCP {
  private:
   Uint16 StoreObject(DcmDataset& dataset, const OFString& transfer_syntax) {
     E_TransferSyntax xfer = DcmXfer(transfer_syntax.c_str()).getXfer();
-    Result<std::filesystem::path> written = net::WriteToSpool(context_.spool, dataset, xfer);
+    Result<CommitResult> written = net::WriteToSpool(context_.spool, dataset, xfer);
     if (!written.ok()) {
       ++context_.failed;
       spdlog::error("listen: object from '{}': {}", calling_ae_, written.error().ToString());
       return written.error().kind == ErrorKind::kMalformed ? STATUS_STORE_Error_CannotUnderstand
                                                            : STATUS_STORE_Refused_OutOfResources;
     }
+    LogCommit(*written);
     ++context_.received;
-    context_.queue.Push(written.value());
+    // Queued even when it was already there: the consumer skips what the store has.
+    context_.queue.Push(written->path);
     return STATUS_Success;
+  }
+
+  void LogCommit(const CommitResult& written) const {
+    if (written.outcome == SpoolCommit::kAlreadyThere) {
+      spdlog::info("listen: {} from '{}' already in the spool, identical copy dropped",
+                   written.path.filename().string(), calling_ae_);
+    } else if (written.outcome == SpoolCommit::kStoredAside) {
+      spdlog::warn("listen: {} from '{}' reuses a SOP Instance UID with different content; "
+                   "kept beside the first copy", written.path.filename().string(), calling_ae_);
+    }
   }
 
   ServerContext& context_;

@@ -77,15 +77,15 @@ TEST_CASE("DatasetWithTraversalUidIsWrittenInsideTheSpool") {
   DcmDataset dataset;
   dataset.putAndInsertString(DCM_SOPClassUID, "1.2.840.10008.5.1.4.1.1.1.1");
   dataset.putAndInsertString(DCM_SOPInstanceUID, "../../../escaped");
-  Result<fs::path> written = net::WriteToSpool(*spool, dataset, EXS_LittleEndianExplicit);
+  Result<CommitResult> written = net::WriteToSpool(*spool, dataset, EXS_LittleEndianExplicit);
   REQUIRE(written.ok());
-  CHECK(IsInside(written.value(), spool->received_dir()));
+  CHECK(IsInside(written->path, spool->received_dir()));
   CHECK(!fs::exists(dir.path() / "escaped"));
   CHECK(!fs::exists(dir.path() / "escaped.dcm"));
   CHECK(fs::is_empty(spool->tmp_dir()));
   // The object is intact: the UID inside the file is untouched, only the name is sanitised.
   DcmFileFormat file;
-  REQUIRE(file.loadFile(written->c_str()).good());
+  REQUIRE(file.loadFile(written->path.c_str()).good());
   OFString uid;
   file.getDataset()->findAndGetOFString(DCM_SOPInstanceUID, uid);
   CHECK(uid == "../../../escaped");
@@ -97,10 +97,58 @@ TEST_CASE("DatasetWithoutSopInstanceUidIsRefused") {
   REQUIRE(spool.ok());
   DcmDataset dataset;
   dataset.putAndInsertString(DCM_SOPClassUID, "1.2.840.10008.5.1.4.1.1.1.1");
-  Result<fs::path> written = net::WriteToSpool(*spool, dataset, EXS_LittleEndianExplicit);
+  Result<CommitResult> written = net::WriteToSpool(*spool, dataset, EXS_LittleEndianExplicit);
   REQUIRE(!written.ok());
   CHECK(written.error().attribute == "(0008,0018) SOP Instance UID");
   CHECK(spool->ReceivedFiles().empty());
+}
+
+std::string ReadAll(const fs::path& file) {
+  std::ifstream in(file, std::ios::binary);
+  return std::string((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
+}
+
+fs::path TempWith(const Spool& spool, const std::string& uid, const std::string& bytes) {
+  fs::path temp = spool.TempPath(uid);
+  std::ofstream(temp, std::ios::binary) << bytes;
+  return temp;
+}
+
+// The spool is append-only (docs/network.md): a resend of the same bytes is dropped, other
+// bytes under a taken name are kept beside the first copy, which is never touched.
+// Common practice for receive folders, no single source.
+TEST_CASE("CommitNeverReplacesAFileAlreadyInTheSpool") {
+  TempDir dir;
+  Result<Spool> spool = Spool::Open(dir.path() / "spool");
+  REQUIRE(spool.ok());
+  const fs::path target = spool->ReceivedPath("1.2.3");
+
+  Result<CommitResult> first = CommitSpoolFile(TempWith(*spool, "1.2.3", "first object"), target);
+  REQUIRE(first.ok());
+  CHECK(first->outcome == SpoolCommit::kStored);
+  CHECK(first->path == target);
+
+  Result<CommitResult> again = CommitSpoolFile(TempWith(*spool, "1.2.3", "first object"), target);
+  REQUIRE(again.ok());
+  CHECK(again->outcome == SpoolCommit::kAlreadyThere);
+  CHECK(again->path == target);
+
+  Result<CommitResult> other = CommitSpoolFile(TempWith(*spool, "1.2.3", "other object"), target);
+  REQUIRE(other.ok());
+  CHECK(other->outcome == SpoolCommit::kStoredAside);
+  CHECK(other->path.filename() == "1.2.3-v2.dcm");
+  CHECK(ReadAll(target) == "first object");
+  CHECK(ReadAll(other->path) == "other object");
+
+  // The same different object once more finds its own earlier copy.
+  Result<CommitResult> other_again =
+      CommitSpoolFile(TempWith(*spool, "1.2.3", "other object"), target);
+  REQUIRE(other_again.ok());
+  CHECK(other_again->outcome == SpoolCommit::kAlreadyThere);
+  CHECK(other_again->path == other->path);
+
+  CHECK(spool->ReceivedFiles().size() == 2);
+  CHECK(fs::is_empty(spool->tmp_dir()));
 }
 
 TEST_CASE("ArchiveAddressIsParsedIntoHostPortAndAeTitle") {
