@@ -23,19 +23,27 @@ struct ListenFixture {
   fs::path images = dir.path() / "images";
 
   std::unique_ptr<Child> Start(std::vector<std::string> extra = {}) {
-    std::vector<std::string> argv = {BEAMTRIM_BINARY, "listen", "--port", std::to_string(port),
-                                     "--aet", "BEAMTRIM", "--store", store.string(),
-                                     "--spool", spool.string()};
-    argv.insert(argv.end(), extra.begin(), extra.end());
-    auto child = std::make_unique<Child>(argv, dir.path() / "listen.log");
-    REQUIRE_MESSAGE(WaitForPort(port), "listen did not open its port");
+    auto child = StartServer(port, [&](int p) {
+      std::vector<std::string> argv = {BEAMTRIM_BINARY, "listen", "--port", std::to_string(p),
+                                       "--aet", "BEAMTRIM", "--store", store.string(),
+                                       "--spool", spool.string()};
+      argv.insert(argv.end(), extra.begin(), extra.end());
+      return std::make_unique<Child>(argv, dir.path() / "listen.log");
+    });
+    REQUIRE_MESSAGE(child != nullptr, ("listen did not open its port: " + Log("listen.log")));
     return child;
   }
 
   int StoreScu(const std::string& calling, const std::vector<fs::path>& files,
-               const std::string& log_name = "storescu.log") {
-    std::vector<std::string> argv = {"storescu", "-aet", calling, "-aec", "BEAMTRIM",
-                                     "127.0.0.1", std::to_string(port)};
+               const std::string& log_name = "storescu.log",
+               const std::vector<std::string>& options = {}) {
+    std::vector<std::string> argv = {"storescu"};
+    argv.insert(argv.end(), options.begin(), options.end());
+    for (std::string a : {std::string("-aet"), calling, std::string("-aec"),
+                          std::string("BEAMTRIM"), std::string("127.0.0.1"),
+                          std::to_string(port)}) {
+      argv.push_back(a);
+    }
     for (const fs::path& f : files) argv.push_back(f.string());
     return Run(argv, dir.path() / log_name);
   }
@@ -81,12 +89,34 @@ std::string FileTransferSyntax(const fs::path& file) {
   return uid.c_str();
 }
 
+// storescu option that proposes `syntax` as the preferred transfer syntax, in a presentation
+// context of its own (storescu manual, "proposed transmission transfer syntaxes"; without +C
+// the uncompressed fall-backs go in a separate context). storescu never proposes a file's
+// compressed syntax unless told, and then tries, and fails, to decompress it.
+std::string StorescuProposal(TransferSyntax syntax) {
+  switch (syntax) {
+    case TransferSyntax::kImplicitLittle: return "-xi";
+    case TransferSyntax::kExplicitLittle: return "-xe";
+    case TransferSyntax::kExplicitBig: return "-xb";
+    case TransferSyntax::kDeflated: return "-xd";
+    case TransferSyntax::kRle: return "-xr";
+    case TransferSyntax::kJpegBaseline: return "-xy";
+    case TransferSyntax::kJpegExtended: return "-xx";
+    case TransferSyntax::kJpegLossless: return "-xs";
+    case TransferSyntax::kJpegLsLossless: return "-xt";
+    case TransferSyntax::kJpegLsNearLossless: return "-xu";
+    case TransferSyntax::kJpeg2000Lossless: return "-xv";
+    case TransferSyntax::kJpeg2000: return "-xw";
+  }
+  return "-x=";
+}
+
 // Every transfer syntax the writer offers (PS3.5 section 10 and Annex A lists them); each
 // object must arrive once, in the syntax it was sent in (no transcoding), and be recorded.
-// Known gap, issue 7 still open: `storescu -R` on a folder of twelve transfer syntaxes tries to
-// convert the RLE file and stops, so only 4 of 12 arrive; the test must send each file with its
-// own storescu run. Skipped until rewritten; run with --no-skip.
-TEST_CASE("StorescuFolderIsReceivedOnceEachAndRecorded" * doctest::skip()) {
+// Each file goes in its own storescu association that proposes the file's own syntax first
+// (-R: only the SOP classes of the files): storescu sends as is when that context is
+// accepted, so the syntax found in the spool shows beamtrim accepted it and kept it.
+TEST_CASE("StorescuFolderIsReceivedOnceEachAndRecorded") {
   ListenFixture f;
   fs::create_directories(f.images);
   std::vector<SynthImage> sent;
@@ -102,23 +132,28 @@ TEST_CASE("StorescuFolderIsReceivedOnceEachAndRecorded" * doctest::skip()) {
   CHECK(Run({"echoscu", "-aet", "MODALITY1", "-aec", "BEAMTRIM", "127.0.0.1",
              std::to_string(f.port)},
             f.dir.path() / "echo.log") == 0);
-  std::vector<fs::path> files;
-  for (const SynthImage& s : sent) files.push_back(s.file);
-  // storescu proposes each file's own syntax (plus uncompressed) unless told otherwise;
-  // -R proposes only the syntax of the file, so accepting it means no conversion happened.
-  std::vector<std::string> argv = {"storescu", "-R", "-aet", "MODALITY1", "-aec", "BEAMTRIM",
-                                   "127.0.0.1", std::to_string(f.port)};
-  for (const fs::path& p : files) argv.push_back(p.string());
-  CHECK_MESSAGE(Run(argv, f.dir.path() / "storescu.log") == 0, f.Log("storescu.log"));
-  // Sending the same objects again from another modality must not add rows.
-  CHECK(f.StoreScu("MODALITY2", files, "storescu2.log") == 0);
+  for (const SynthImage& s : sent) {
+    const std::string syntax_name = TransferSyntaxName(s.syntax);
+    CAPTURE(syntax_name);
+    const std::string log = "storescu-" + s.file.stem().string() + ".log";
+    CHECK_MESSAGE(f.StoreScu("MODALITY1", {s.file}, log, {"-R", StorescuProposal(s.syntax)}) == 0,
+                  f.Log(log));
+  }
+  // The same objects again from the other modality: no new rows, no new spool files.
+  for (const SynthImage& s : sent) {
+    const std::string log = "storescu2-" + s.file.stem().string() + ".log";
+    CHECK_MESSAGE(f.StoreScu("MODALITY2", {s.file}, log, {"-R", StorescuProposal(s.syntax)}) == 0,
+                  f.Log(log));
+  }
   CHECK_MESSAGE(listen->Stop(SIGTERM) == 0, listen->Log());
 
   CHECK(f.SpoolCount() == sent.size());
   StoreCounts counts = f.Counts();
   CHECK(Rows(counts) == static_cast<int64_t>(sent.size()));
+  CHECK(counts.duplicates == 0);
   for (const SynthImage& s : sent) {
-    CAPTURE(TransferSyntaxName(s.syntax));
+    const std::string syntax_name = TransferSyntaxName(s.syntax);
+    CAPTURE(syntax_name);
     CHECK(f.Recorded(s.sop_instance_uid));
     fs::path received = f.spool / "received" / SpoolFileName(s.sop_instance_uid);
     CHECK(FileTransferSyntax(received) == TransferSyntaxUid(s.syntax));
@@ -254,6 +289,40 @@ TEST_CASE("AssociationDroppedMidObjectLeavesNothingHalfWritten") {
   CHECK(Rows(f.Counts()) == 1);
   CHECK(f.SpoolCount() == 1);
   CHECK(fs::is_empty(f.spool / "tmp"));
+}
+
+// Network input stays in its lane: bytes that are no DICOM at all, and an object whose pixel
+// data cannot be measured, neither stop the listener nor the objects after them. The broken
+// object is kept and recorded as an error row (the batch rule: a named error, never a stop).
+TEST_CASE("BadInputNeverStopsTheListener") {
+  ListenFixture f;
+  fs::create_directories(f.images);
+  fs::path broken = f.images / "broken.dcm";
+  WriteSynthImage(broken, "2.25.6101", "2.25.6100", "20240110");
+  {
+    // Rows no longer matches the pixel data length (PS3.5 8.1.1: the length follows from
+    // Rows x Columns x Bits Allocated), so the reader must refuse the pixels.
+    DcmFileFormat ff;
+    REQUIRE(ff.loadFile(broken.c_str()).good());
+    ff.getDataset()->putAndInsertUint16(DCM_Rows, 4000);
+    REQUIRE(ff.saveFile(broken.c_str(), EXS_LittleEndianExplicit).good());
+  }
+  SynthImage good = WriteSynthImage(f.images / "good.dcm", "2.25.6102", "2.25.6100", "20240110");
+  auto listen = f.Start();
+
+  int fd = ConnectLoopback(f.port);
+  REQUIRE(fd >= 0);
+  CHECK(SendAll(fd, std::string("GET / HTTP/1.0\r\n\r\n") + std::string(64, '\xff')));
+  ::close(fd);
+  CHECK(f.StoreScu("MODALITY1", {broken}, "storescu-broken.log") == 0);
+  CHECK(f.StoreScu("MODALITY1", {good.file}, "storescu-good.log") == 0);
+  CHECK_MESSAGE(listen->Stop(SIGTERM) == 0, listen->Log());
+
+  CHECK(f.SpoolCount() == 2);
+  StoreCounts counts = f.Counts();
+  CHECK(counts.ok == 1);
+  CHECK(counts.error == 1);
+  CHECK(f.Recorded("2.25.6102"));
 }
 
 // Objects left in the spool by a killed server are measured when it starts again.

@@ -16,8 +16,11 @@
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
+#include <memory>
 #include <optional>
 #include <random>
+#include <set>
+#include <stdexcept>
 #include <sstream>
 #include <string>
 #include <thread>
@@ -49,19 +52,27 @@ class TempDir {
   fs::path path_;
 };
 
-// A port that was free on 127.0.0.1 a moment ago (the kernel picks it).
+// A port that was free on 127.0.0.1 a moment ago (the kernel picks it from its ephemeral
+// range, so parallel test processes rarely meet), never one this process handed out before:
+// a test that needs two ports gets two different ones.
 inline int FreePort() {
-  int fd = ::socket(AF_INET, SOCK_STREAM, 0);
-  sockaddr_in addr{};
-  addr.sin_family = AF_INET;
-  addr.sin_addr.s_addr = htonl(INADDR_LOOPBACK);
-  addr.sin_port = 0;
-  ::bind(fd, reinterpret_cast<sockaddr*>(&addr), sizeof(addr));
-  socklen_t len = sizeof(addr);
-  ::getsockname(fd, reinterpret_cast<sockaddr*>(&addr), &len);
-  int port = ntohs(addr.sin_port);
-  ::close(fd);
-  return port;
+  static std::set<int> handed_out;
+  for (int attempt = 0; attempt < 50; ++attempt) {
+    int fd = ::socket(AF_INET, SOCK_STREAM, 0);
+    sockaddr_in addr{};
+    addr.sin_family = AF_INET;
+    addr.sin_addr.s_addr = htonl(INADDR_LOOPBACK);
+    addr.sin_port = 0;
+    socklen_t len = sizeof(addr);
+    int port = 0;
+    if (::bind(fd, reinterpret_cast<sockaddr*>(&addr), sizeof(addr)) == 0 &&
+        ::getsockname(fd, reinterpret_cast<sockaddr*>(&addr), &len) == 0) {
+      port = ntohs(addr.sin_port);
+    }
+    ::close(fd);
+    if (port > 0 && handed_out.insert(port).second) return port;
+  }
+  throw std::runtime_error("no free loopback port");
 }
 
 inline int ConnectLoopback(int port) {
@@ -136,6 +147,9 @@ class Child {
     return Stop(SIGKILL);
   }
 
+  // True once the child has ended (it is reaped then).
+  bool Exited() { return pid_ <= 0 || Reap(WNOHANG); }
+
   std::string Log() const {
     std::ifstream in(log_);
     std::stringstream text;
@@ -157,6 +171,33 @@ class Child {
   int exit_code_ = -1;
   fs::path log_;
 };
+
+// True once `server` accepts connections on 127.0.0.1:port; false as soon as it has ended
+// (for instance because another process took the port in the meantime) or after a bound.
+inline bool WaitForServer(Child& server, int port, int tries = 300) {
+  for (int i = 0; i < tries; ++i) {
+    if (server.Exited()) return false;
+    int fd = ConnectLoopback(port);
+    if (fd >= 0) {
+      ::close(fd);
+      return true;
+    }
+    std::this_thread::sleep_for(std::chrono::milliseconds(50));
+  }
+  return false;
+}
+
+// Starts a server on a free port, trying another port when the one picked was taken before the
+// server could bind it. `make` builds the child for a port. Returns nullptr when every try failed.
+template <class Make>
+std::unique_ptr<Child> StartServer(int& port, Make make, int tries = 3) {
+  for (int i = 0; i < tries; ++i) {
+    if (i > 0) port = FreePort();
+    std::unique_ptr<Child> server = make(port);
+    if (WaitForServer(*server, port)) return server;
+  }
+  return nullptr;
+}
 
 // Runs a program to completion (bounded) and returns its exit code.
 inline int Run(std::vector<std::string> argv, const fs::path& log) {

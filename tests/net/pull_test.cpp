@@ -32,19 +32,21 @@ struct ArchiveFixture {
     for (const SynthImage& s : images) index.push_back(s.file.string());
     REQUIRE(Run(index, dir.path() / "dcmqridx.log") == 0);
 
-    // dcmqrscp configuration (DCMTK dcmqrcnf format): one storage area, and the C-MOVE
-    // destination mapped to our own receiving port.
-    std::ofstream cfg(dir.path() / "dcmqrscp.cfg");
-    cfg << "NetworkTCPPort = " << port << "\nMaxPDUSize = 16384\nMaxAssociations = 4\n"
-        << "HostTable BEGIN\nbeamtrim_dest = (BTMOVE, 127.0.0.1, " << move_port << ")\n"
-        << "HostTable END\nVendorTable BEGIN\nVendorTable END\n"
-        << "AETable BEGIN\nARCHIVE " << db.string() << " RW (100, 256mb) ANY\nAETable END\n";
-    cfg.close();
-    archive = std::make_unique<Child>(
-        std::vector<std::string>{"dcmqrscp", "-s", "-dhl", "-c",
-                                 (dir.path() / "dcmqrscp.cfg").string(), std::to_string(port)},
-        dir.path() / "dcmqrscp.log");
-    REQUIRE_MESSAGE(WaitForPort(port), archive->Log());
+    archive = StartServer(port, [&](int p) {
+      // dcmqrscp configuration (DCMTK dcmqrcnf format): one storage area, and the C-MOVE
+      // destination mapped to our own receiving port.
+      std::ofstream cfg(dir.path() / "dcmqrscp.cfg");
+      cfg << "NetworkTCPPort = " << p << "\nMaxPDUSize = 16384\nMaxAssociations = 4\n"
+          << "HostTable BEGIN\nbeamtrim_dest = (BTMOVE, 127.0.0.1, " << move_port << ")\n"
+          << "HostTable END\nVendorTable BEGIN\nVendorTable END\n"
+          << "AETable BEGIN\nARCHIVE " << db.string() << " RW (100, 256mb) ANY\nAETable END\n";
+      cfg.close();
+      return std::make_unique<Child>(
+          std::vector<std::string>{"dcmqrscp", "-v", "-dhl", "-c",
+                                   (dir.path() / "dcmqrscp.cfg").string(), std::to_string(p)},
+          dir.path() / "dcmqrscp.log");
+    });
+    REQUIRE_MESSAGE(archive != nullptr, Log("dcmqrscp.log"));
   }
 
   void Add(const std::string& sop, const std::string& study, const std::string& date,
@@ -100,6 +102,14 @@ struct ArchiveFixture {
 
 int64_t Rows(const StoreCounts& c) { return c.ok + c.skipped + c.error; }
 
+size_t Occurrences(const std::string& text, const std::string& what) {
+  size_t count = 0;
+  for (size_t at = text.find(what); at != std::string::npos; at = text.find(what, at + 1)) {
+    ++count;
+  }
+  return count;
+}
+
 // Study Root C-FIND with a date range (PS3.4 C.2.2.2.5, range matching "from-to" inclusive)
 // then C-GET (PS3.4 C.4.3): exactly the studies dated inside the range are fetched.
 TEST_CASE("PullWithCGetFetchesExactlyTheStudiesInRange") {
@@ -112,13 +122,12 @@ TEST_CASE("PullWithCGetFetchesExactlyTheStudiesInRange") {
 
 // An interrupted pull is a pull that stopped part-way: the narrower first run stands in for
 // it. The second run completes the range, the third finds nothing to do; no row is doubled.
-// Known gap, issue 7 still open: the second, wider pull fetches the missing instances at IMAGE
-// level and exits 1. Skipped until that path is fixed; run with --no-skip.
-TEST_CASE("RepeatedPullCompletesWithoutDuplicates" * doctest::skip()) {
+TEST_CASE("RepeatedPullCompletesWithoutDuplicates") {
   ArchiveFixture f;
   REQUIRE_MESSAGE(f.Pull("20240101", "20240110", {}, "pull1.log") == 0, f.Log("pull1.log"));
   CHECK(f.Recorded() == f.Expected("20240101", "20240110"));
-  REQUIRE_MESSAGE(f.Pull("20240101", "20240131", {}, "pull2.log") == 0, f.Log("pull2.log"));
+  REQUIRE_MESSAGE(f.Pull("20240101", "20240131", {}, "pull2.log") == 0, f.Log("pull2.log"),
+                  f.archive->Log());
   CHECK(f.Log("pull2.log").find("already stored 2") != std::string::npos);
   REQUIRE(f.Pull("20240101", "20240131", {}, "pull3.log") == 0);
   CHECK(f.Log("pull3.log").find("images received 0, already stored 4") != std::string::npos);
@@ -126,6 +135,28 @@ TEST_CASE("RepeatedPullCompletesWithoutDuplicates" * doctest::skip()) {
   CHECK(Rows(counts) == 4);
   CHECK(counts.duplicates == 0);
   CHECK(f.Recorded() == f.Expected("20240101", "20240131"));
+}
+
+// A series that is partly stored (the archive got another image of it after the last pull)
+// is completed image by image: C-GET at IMAGE level with the SOP Instance UID as unique key
+// (PS3.4 C.4.3.2 and C.6.2.1.2). The images already stored are not fetched again.
+TEST_CASE("ImageAddedToAStoredSeriesIsFetchedAtImageLevel") {
+  ArchiveFixture f;
+  REQUIRE_MESSAGE(f.Pull("20240105", "20240105", {}, "pull1.log") == 0, f.Log("pull1.log"));
+  f.Add("2.25.8103", "2.25.8100", "20240105", TransferSyntax::kExplicitLittle, "DX");
+  REQUIRE(Run({"dcmqridx", f.db.string(), f.images.back().file.string()},
+              f.dir.path() / "dcmqridx2.log") == 0);
+  REQUIRE_MESSAGE(f.Pull("20240105", "20240105", {}, "pull2.log") == 0, f.Log("pull2.log"),
+                  f.archive->Log());
+  CHECK(f.Log("pull2.log").find("images received 1, already stored 2, failed 0") !=
+        std::string::npos);
+  // The archive's own log counts its C-STORE sub-operations: two for the first pull, one for
+  // the second; nothing already stored was sent again.
+  CHECK(Occurrences(f.archive->Log(), "Store SCU RQ") == 3);
+  CHECK(f.Recorded() == f.Expected("20240105", "20240105"));
+  StoreCounts counts = f.OpenStore()->Counts();
+  CHECK(Rows(counts) == 3);
+  CHECK(counts.duplicates == 0);
 }
 
 TEST_CASE("PullWithModalityFilterSkipsOtherModalities") {
