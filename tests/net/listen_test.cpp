@@ -325,6 +325,59 @@ TEST_CASE("BadInputNeverStopsTheListener") {
   CHECK(f.Recorded("2.25.6102"));
 }
 
+// Reads one PDU header (PS3.8 9.3.1: type, reserved, 4-byte big-endian length) and skips the
+// body. Returns the PDU type, or -1 when the connection ended.
+int ReadPdu(int fd) {
+  unsigned char header[6] = {};
+  if (::recv(fd, header, sizeof(header), MSG_WAITALL) != 6) return -1;
+  uint32_t rest = (uint32_t(header[2]) << 24) | (uint32_t(header[3]) << 16) |
+                  (uint32_t(header[4]) << 8) | uint32_t(header[5]);
+  std::string body(rest, '\0');
+  if (rest > 0 && ::recv(fd, body.data(), rest, MSG_WAITALL) != ssize_t(rest)) return -1;
+  return header[0];
+}
+
+// With --max-associations 1, a second association while the first is open is refused as
+// transient, "local limit exceeded" (PS3.8 9.3.4: result 2, source 3, reason 2), so the sender
+// tries again later; once the first one has ended, sending works again.
+TEST_CASE("AssociationsBeyondTheLimitAreRefusedForNow") {
+  ListenFixture f;
+  fs::create_directories(f.images);
+  SynthImage s = WriteSynthImage(f.images / "a.dcm", "2.25.6201", "2.25.6200", "20240110");
+  auto listen = f.Start({"--max-associations", "1"});
+  // The start-up probe's connection may still hold the slot for a moment: retry, bounded.
+  int held = -1;
+  for (int attempt = 0; attempt < 50 && held < 0; ++attempt) {
+    if (attempt > 0) std::this_thread::sleep_for(std::chrono::milliseconds(100));
+    held = ConnectLoopback(f.port);
+    REQUIRE(held >= 0);
+    REQUIRE(SendAll(held, AssociateRq("BEAMTRIM", "MODALITY1")));
+    if (ReadPdu(held) != 0x02) {  // not A-ASSOCIATE-AC
+      ::close(held);
+      held = -1;
+    }
+  }
+  REQUIRE(held >= 0);  // this association now holds the only slot
+
+  CHECK(f.StoreScu("MODALITY2", {s.file}, "storescu-busy.log") != 0);
+  std::string busy = f.Log("storescu-busy.log");
+  CHECK_MESSAGE(busy.find("Rejected Transient") != std::string::npos, busy);
+  CHECK_MESSAGE(busy.find("Local Limit Exceeded") != std::string::npos, busy);
+  CHECK(f.SpoolCount() == 0);
+
+  ::close(held);
+  // The server notices the closed connection on its own schedule: retry, bounded.
+  int code = -1;
+  for (int attempt = 0; attempt < 50 && code != 0; ++attempt) {
+    if (attempt > 0) std::this_thread::sleep_for(std::chrono::milliseconds(100));
+    code = f.StoreScu("MODALITY2", {s.file}, "storescu-after.log");
+  }
+  CHECK_MESSAGE(code == 0, f.Log("storescu-after.log"));
+  CHECK_MESSAGE(listen->Stop(SIGTERM) == 0, listen->Log());
+  CHECK(f.Recorded("2.25.6201"));
+  CHECK(Rows(f.Counts()) == 1);
+}
+
 // Objects left in the spool by a killed server are measured when it starts again.
 TEST_CASE("ObjectsLeftUnrecordedAreMeasuredOnTheNextStart") {
   ListenFixture f;

@@ -159,6 +159,21 @@ TEST_CASE("ImageAddedToAStoredSeriesIsFetchedAtImageLevel") {
   CHECK(counts.duplicates == 0);
 }
 
+// A pull killed after an object reached the spool but before it was recorded: the next run
+// records what is in the spool first and fetches only what is still missing.
+TEST_CASE("ObjectsLeftInTheSpoolAreRecordedBeforeFetching") {
+  ArchiveFixture f;
+  const fs::path received = f.dir.path() / "spool" / "received";
+  fs::create_directories(received);
+  fs::copy_file(f.images[0].file, received / SpoolFileName(f.images[0].sop_instance_uid));
+  REQUIRE_MESSAGE(f.Pull("20240105", "20240105") == 0, f.Log("pull.log"), f.archive->Log());
+  CHECK(f.Log("pull.log").find("images received 1, already stored 1, failed 0") !=
+        std::string::npos);
+  CHECK(Occurrences(f.archive->Log(), "Store SCU RQ") == 1);
+  CHECK(f.Recorded() == f.Expected("20240105", "20240105"));
+  CHECK(Rows(f.OpenStore()->Counts()) == 2);
+}
+
 TEST_CASE("PullWithModalityFilterSkipsOtherModalities") {
   ArchiveFixture f;
   REQUIRE_MESSAGE(f.Pull("20240101", "20240131", {"--modality", "CR"}) == 0, f.Log("pull.log"));
