@@ -197,6 +197,8 @@ TEST_CASE("TraversalSopInstanceUidCannotWriteOutsideTheSpool") {
   {
     DcmFileFormat ff;
     REQUIRE(ff.loadFile(file.c_str()).good());
+    // Large values are read lazily from the file; saving over it would truncate them.
+    REQUIRE(ff.loadAllDataIntoMemory().good());
     const char* evil = "../../../../escaped";
     ff.getDataset()->putAndInsertString(DCM_SOPInstanceUID, evil);
     ff.getMetaInfo()->putAndInsertString(DCM_MediaStorageSOPInstanceUID, evil);
@@ -304,6 +306,8 @@ TEST_CASE("BadInputNeverStopsTheListener") {
     // Rows x Columns x Bits Allocated), so the reader must refuse the pixels.
     DcmFileFormat ff;
     REQUIRE(ff.loadFile(broken.c_str()).good());
+    // Large values are read lazily from the file; saving over it would truncate them.
+    REQUIRE(ff.loadAllDataIntoMemory().good());
     ff.getDataset()->putAndInsertUint16(DCM_Rows, 4000);
     REQUIRE(ff.saveFile(broken.c_str(), EXS_LittleEndianExplicit).good());
   }
@@ -323,6 +327,40 @@ TEST_CASE("BadInputNeverStopsTheListener") {
   CHECK(counts.ok == 1);
   CHECK(counts.error == 1);
   CHECK(f.Recorded("2.25.6102"));
+}
+
+// A different object under a SOP Instance UID already received (PS3.3 C.12.1.1.1 says a UID
+// names one object, but senders do reuse them): the first copy stays untouched, the second is
+// kept beside it, and the store notes a duplicate instead of a second row.
+TEST_CASE("DifferentObjectWithAReceivedUidIsKeptBesideTheFirst") {
+  ListenFixture f;
+  fs::create_directories(f.images);
+  SynthImage first = WriteSynthImage(f.images / "first.dcm", "2.25.6301", "2.25.6300", "20240110");
+  fs::path second = f.images / "second.dcm";
+  WriteSynthImage(second, "2.25.6301", "2.25.6300", "20240110");
+  {
+    DcmFileFormat ff;
+    REQUIRE(ff.loadFile(second.c_str()).good());
+    // Large values are read lazily from the file; saving over it would truncate them.
+    REQUIRE(ff.loadAllDataIntoMemory().good());
+    ff.getDataset()->putAndInsertString(DCM_StationName, "ROOM-3");
+    REQUIRE(ff.saveFile(second.c_str(), EXS_LittleEndianExplicit).good());
+  }
+  auto listen = f.Start();
+  CHECK(f.StoreScu("MODALITY1", {first.file}, "storescu1.log") == 0);
+  const fs::path kept = f.spool / "received" / SpoolFileName("2.25.6301");
+  REQUIRE(fs::exists(kept));
+  const auto kept_time = fs::last_write_time(kept);
+  const auto kept_size = fs::file_size(kept);
+  CHECK(f.StoreScu("MODALITY1", {second}, "storescu2.log") == 0);
+  CHECK_MESSAGE(listen->Stop(SIGTERM) == 0, listen->Log());
+
+  CHECK(f.SpoolCount() == 2);
+  CHECK(fs::last_write_time(kept) == kept_time);
+  CHECK(fs::file_size(kept) == kept_size);
+  StoreCounts counts = f.Counts();
+  CHECK_MESSAGE(Rows(counts) == 1, f.Log("listen.log"));
+  CHECK(counts.duplicates == 1);
 }
 
 // Reads one PDU header (PS3.8 9.3.1: type, reserved, 4-byte big-endian length) and skips the
