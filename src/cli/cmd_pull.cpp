@@ -65,6 +65,10 @@ bool BuildOptions(const PullArgs& args, PullOptions* options) {
     std::cerr << "beamtrim pull: --move-dest needs --port (where the archive sends to)\n";
     return false;
   }
+  if (args.move_dest.empty() && args.port != 0) {
+    std::cerr << "beamtrim pull: --port is the C-MOVE receiving port and needs --move-dest\n";
+    return false;
+  }
   return true;
 }
 

@@ -272,10 +272,15 @@ class Puller {
   T_ASC_PresentationContextID retrieve_id_ = 0;
 };
 
-// A file in the spool without a store row was offered to the sink by ConsumePending at the
-// start and failed there, so only the store decides what is already here.
-bool AlreadyHave(const SpoolSink& sink, const std::string& uid) {
-  return sink.has_instance && sink.has_instance(uid);
+// Only the store decides what is already here: a file in the spool without a store row was
+// offered to the sink by ConsumePending at the start and failed there. An instance counts as
+// here when the store has its record, or when its spool file is recorded: the latter covers
+// images recorded as errors (unmeasurable), which would otherwise be fetched on every run.
+bool AlreadyHave(const SpoolSink& sink, const Spool& spool, const std::string& uid) {
+  if (sink.has_instance && sink.has_instance(uid)) return true;
+  const std::filesystem::path file = spool.ReceivedPath(uid);
+  std::error_code ec;
+  return sink.is_done && std::filesystem::exists(file, ec) && sink.is_done(file);
 }
 
 // Sub-operations of C-MOVE arrive at our own short-lived Storage SCP.
@@ -412,7 +417,7 @@ Result<PullProgress> Pull(const PullOptions& options, const Spool& spool, const 
     for (const SeriesEntry& entry : series.value()) {
       std::vector<std::string> missing;
       for (const std::string& uid : entry.instances) {
-        if (AlreadyHave(sink, uid)) {
+        if (AlreadyHave(sink, spool, uid)) {
           ++progress.images_skipped;
         } else {
           missing.push_back(uid);

@@ -1,6 +1,10 @@
 // End-to-end tests of `beamtrim pull` against DCMTK's dcmqrscp as the archive, on 127.0.0.1.
 #include <doctest/doctest.h>
 
+#include <dcmtk/config/osconfig.h>
+#include <dcmtk/dcmdata/dcdeftag.h>
+#include <dcmtk/dcmdata/dcfilefo.h>
+
 #include "beamtrim/network.h"
 #include "beamtrim/store.h"
 #include "net/net_test_util.h"
@@ -159,6 +163,32 @@ TEST_CASE("ImageAddedToAStoredSeriesIsFetchedAtImageLevel") {
   CHECK(counts.duplicates == 0);
 }
 
+// An image that cannot be measured is recorded once as an error row (the batch rule) and is
+// then as done as any other: a repeated pull does not fetch it again.
+TEST_CASE("ImageRecordedAsAnErrorIsNotFetchedAgain") {
+  ArchiveFixture f;
+  f.Add("2.25.8103", "2.25.8100", "20240105", TransferSyntax::kExplicitLittle, "DX");
+  const fs::path broken = f.images.back().file;
+  {
+    // Rows no longer matches the pixel data length (PS3.5 8.1.1), so measuring must fail.
+    DcmFileFormat ff;
+    REQUIRE(ff.loadFile(broken.c_str()).good());
+    REQUIRE(ff.loadAllDataIntoMemory().good());  // saving over a lazily read file truncates it
+    ff.getDataset()->putAndInsertUint16(DCM_Rows, 4000);
+    REQUIRE(ff.saveFile(broken.c_str(), EXS_LittleEndianExplicit).good());
+  }
+  REQUIRE(Run({"dcmqridx", f.db.string(), broken.string()}, f.dir.path() / "dcmqridx2.log") == 0);
+  REQUIRE_MESSAGE(f.Pull("20240105", "20240105", {}, "pull1.log") == 0, f.Log("pull1.log"));
+  REQUIRE_MESSAGE(f.Pull("20240105", "20240105", {}, "pull2.log") == 0, f.Log("pull2.log"));
+  CHECK(f.Log("pull2.log").find("images received 0, already stored 3, failed 0") !=
+        std::string::npos);
+  CHECK(Occurrences(f.archive->Log(), "Store SCU RQ") == 3);
+  StoreCounts counts = f.OpenStore()->Counts();
+  CHECK(counts.ok == 2);
+  CHECK(counts.error == 1);
+  CHECK(counts.duplicates == 0);
+}
+
 // A pull killed after an object reached the spool but before it was recorded: the next run
 // records what is in the spool first and fetches only what is still missing.
 TEST_CASE("ObjectsLeftInTheSpoolAreRecordedBeforeFetching") {
@@ -201,6 +231,14 @@ TEST_CASE("PullFromAClosedPortFailsWithANamedError") {
   std::ifstream in(dir.path() / "pull.log");
   std::string log((std::istreambuf_iterator<char>(in)), std::istreambuf_iterator<char>());
   CHECK(log.find("NOBODY@127.0.0.1") != std::string::npos);
+}
+
+TEST_CASE("PullPortWithoutMoveDestinationIsAUsageError") {
+  TempDir dir;
+  CHECK(Run({BEAMTRIM_BINARY, "pull", "--archive", "127.0.0.1:104:ARCHIVE", "--aet", "BTPULL",
+             "--from", "2024-01-01", "--to", "2024-01-31", "--port", "11113", "--store",
+             (dir.path() / "s.sqlite").string()},
+            dir.path() / "log") == 2);
 }
 
 TEST_CASE("PullRejectsAnImpossibleDate") {
