@@ -91,6 +91,9 @@ struct ReportModel {
   std::vector<CaseSummary> worst;              // largest excess fraction first
   std::vector<RadiographerSheet> sheets;
   int64_t records_seen = 0;  // all months
+  // Each room's QC records up to the end of the period beside its clinical figures of the
+  // period (filled by WriteReports from the store; ReportBuilder leaves it empty).
+  std::vector<RoomQcHistory> room_qc;
 };
 
 struct ReportOptions {

@@ -1,5 +1,6 @@
 // Store: the durable audit store, one SQLite file (WAL mode) holding one row per measured
-// file, the duplicate notes and the schema history. Schema and policies: docs/store.md.
+// file, the duplicate notes, the QC records of each room and the schema history. Schema and
+// policies: docs/store.md.
 // A Store is safe to share between threads: every call takes an internal lock, and every write
 // is one transaction. Keyed hashes use a secret key file created on first use (mode 0600).
 #pragma once
@@ -19,7 +20,7 @@
 namespace beamtrim {
 
 // Latest store schema version (PRAGMA user_version); migrations bring older files up to it.
-inline constexpr int kStoreSchemaVersion = 2;
+inline constexpr int kStoreSchemaVersion = 3;
 
 // Which file a record came from. A file whose path, size and modification time all match a
 // stored row is not measured again (docs/store.md, "Resume").
@@ -83,6 +84,39 @@ struct StoredRow {
   ExtractedColumns values;
 };
 
+// Which image rows ForEachRecord visits: status ok, study month and study date within the
+// bounds (inclusive; empty = open end).
+struct RecordRange {
+  std::string from_month, to_month;  // YYYY-MM
+  std::string from_date, to_date;    // YYYYMMDD
+};
+
+// A stored record as the reports read it.
+struct StoredRecord {
+  std::string file_path;  // the measured file (also record.file)
+  ImageRecord record;
+};
+
+// One QC exposure of a room's beam-limiting device, as the store keeps it (table
+// qc_field_checks, docs/qc.md). The QC layer fills it from its analysis; the store only keeps it.
+struct QcCheckRow {
+  int64_t id = 0;            // set by the store
+  std::string station;       // room (Station Name)
+  std::string check_date;    // YYYYMMDD of the exposure
+  std::string image_file;
+  std::string overall;       // "pass", "fail" or "incomplete"
+  std::optional<double> sid_mm;
+  std::string edge_definition;  // "quarter-maximum" or "half-transition"
+  // Misalignment per edge (x-ray minus light, mm at the detector), indexed by Side.
+  std::array<std::optional<double>, 4> misalignment_mm;
+  std::optional<double> width_sum_mm;   // |left| + |right|
+  std::optional<double> length_sum_mm;  // |top| + |bottom|
+  std::optional<double> centre_mm;
+  std::string software_version;
+  std::string result_json;  // schema beamtrim.qc-field
+  std::string stored_utc;   // set by the store
+};
+
 struct StoreCounts {
   int64_t ok = 0;
   int64_t skipped = 0;
@@ -132,6 +166,21 @@ class Store {
   // The visitor returns false to stop early.
   Status ForEachRow(const std::string& from_date, const std::string& to_date,
                     const std::function<bool(const StoredRow&)>& visit) const;
+
+  // Visits every image row with status ok within `range`, in insertion order, as the full record
+  // parsed from its JSON. Rows are streamed, never held together. A row whose JSON cannot be
+  // read is skipped and counted in `unreadable` (when given). The visitor returns false to stop
+  // early. The visitor must not call back into this Store (it runs under the store's lock).
+  Status ForEachRecord(const RecordRange& range,
+                       const std::function<bool(const StoredRecord&)>& visit,
+                       int64_t* unreadable = nullptr) const;
+
+  // Writes one QC record in its own transaction; returns its id.
+  Result<int64_t> PutQcCheck(const QcCheckRow& row);
+  // Visits the QC records of one room (empty = every room) dated on or before `to_date`
+  // (YYYYMMDD, empty = no bound), oldest first (date, then id). Same rules as ForEachRecord.
+  Status ForEachQcCheck(const std::string& station, const std::string& to_date,
+                        const std::function<bool(const QcCheckRow&)>& visit) const;
 
   // Keyed hash (HMAC-SHA256, hex) with this store's key, as stored for accession numbers and
   // study UIDs; for look-ups by a person who knows the identifier.

@@ -22,6 +22,12 @@ inline constexpr const char* kTablesCaution =
     "Findings about a person are for coaching, reviewed by a qualified person. Local "
     "regulations, department protocols and the medical physicist take precedence.";
 
+// Shown with every QC history: the verdicts apply the US limits; people decide.
+inline constexpr const char* kQcCaution =
+    "Caution: QC verdicts apply the 2 % of SID limits of US 21 CFR 1020.31 (light field vs "
+    "x-ray field, summed per axis). Local regulations, the department's QC protocol and the "
+    "medical physicist's judgement decide whether a room's beam-limiting device is acceptable.";
+
 enum class GroupKey { kOperator, kStation, kExam, kMonth };
 const char* GroupKeyName(GroupKey key);  // "operator", "station", "exam", "month"
 Result<GroupKey> ParseGroupKey(const std::string& name);
@@ -95,8 +101,43 @@ struct TrendSeries {
   std::vector<TrendPoint> points;  // by month
 };
 
+// One QC exposure of a room as the tables and the report show it.
+struct QcHistoryEntry {
+  std::string date;     // YYYYMMDD of the exposure
+  std::string overall;  // "pass", "fail", "incomplete"
+  std::optional<double> sid_mm;
+  // Per axis, as the QC analysis decided it: "pass", "fail", "no verdict (SID unknown)" or
+  // "not assessed". Width = left + right edges, length = top + bottom (21 CFR 1020.31(d)).
+  std::string width_axis, length_axis;
+  // The edge with the largest misalignment magnitude (x-ray minus light field).
+  std::string worst_edge;                  // "left", "right", "top", "bottom"; empty = none
+  std::optional<double> worst_edge_mm;     // signed, mm at the detector plane
+  std::optional<double> worst_edge_pct_sid;  // |mm| / SID x 100; empty without SID
+};
+
+// A room's clinical audit figures of the period beside its QC records up to the period's end.
+struct RoomQcHistory {
+  std::string station;                 // "(unknown)" when not recorded
+  int64_t images = 0;                  // clinical images of the period (status ok)
+  int64_t assessable = 0;
+  std::optional<double> pct_needs_review;  // of assessable
+  std::vector<QcHistoryEntry> checks;      // oldest first; empty = no QC record
+};
+
+// Every room with clinical images in [from_date, to_date] or a QC record dated on or before
+// `to_date` (YYYYMMDD; empty = open end), sorted by room. QC records of every date up to the end
+// are kept: the last check before the period is the one that applied during it.
+Result<std::vector<RoomQcHistory>> BuildRoomQcHistory(const Store& store,
+                                                      const std::string& from_date,
+                                                      const std::string& to_date);
+
+// The QcHistoryEntry for one stored QC record: axis verdicts read from its result JSON, the
+// worst edge from its per-edge columns.
+QcHistoryEntry SummariseQcCheck(const QcCheckRow& row);
+
 struct AuditTables {
   std::vector<AuditTable> tables;
+  std::vector<RoomQcHistory> qc;  // each room's QC history beside its clinical figures
   std::vector<TrendSeries> trend;  // per radiographer, then per room
   std::string from_date, to_date;  // as applied, YYYYMMDD or empty
   int64_t min_n = 0;
@@ -114,8 +155,8 @@ Result<std::vector<TrendSeries>> BuildTrend(const Store& store, GroupKey by,
 enum class TableFormat { kCsv, kJson, kXlsx };
 Result<TableFormat> ParseTableFormat(const std::string& name);
 
-// CSV: `out` is a folder, one RFC 4180 file per table plus trend.csv; the first record of
-// each file is the caution. JSON: one file. XLSX: one workbook, one sheet per table.
+// CSV: `out` is a folder, one RFC 4180 file per table plus qc-history.csv and trend.csv; the
+// first record of each file is the caution. JSON: one file. XLSX: one workbook, one sheet per table.
 // Column headers carry the units. Errors name the output path.
 Status WriteAuditTables(const AuditTables& tables, TableFormat format,
                         const std::filesystem::path& out);

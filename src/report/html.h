@@ -48,6 +48,9 @@ std::string GroupTable(const std::vector<GroupFigures>& groups, std::string_view
                        std::string_view label_heading);
 // One case as a <figure>: thumbnail (or a note), caption with the case's figures.
 std::string CaseFigure(const CaseSummary& c, bool show_radiographer);
+// Each room's clinical figures beside its QC records (light field / x-ray field checks), with
+// the QC caution; the latest `max_checks` records per room, newest first.
+std::string RoomQcTable(const std::vector<RoomQcHistory>& rooms, size_t max_checks = 4);
 // The overlay legend in HTML (text and line samples, matching the thumbnails).
 std::string OverlayLegend();
 

@@ -138,6 +138,7 @@ std::string RenderReportHtml(const ReportModel& m) {
                "department");
   s += GroupTable(m.radiographers, "Radiographers", "Radiographer");
   s += GroupTable(m.rooms, "Rooms (Station Name)", "Room");
+  s += RoomQcTable(m.room_qc);
   s += GroupTable(m.exams, "Exams (body part and view)", "Exam");
   s += "</section>\n";
   s += "<section aria-labelledby=\"cases-h\">\n<h2 id=\"cases-h\">Cases with the largest excess</h2>\n"

@@ -11,12 +11,9 @@
 #include <set>
 #include <thread>
 
-#include <nlohmann/json.hpp>
-
 #include "beamtrim/dicom.h"
 #include "beamtrim/report.h"
 #include "beamtrim/store.h"
-#include "store/sqlite_db.h"
 
 namespace beamtrim {
 namespace {
@@ -28,36 +25,6 @@ std::string FirstTrendMonth(const std::string& period, int months) {
   char buf[16];
   std::snprintf(buf, sizeof buf, "%04d-%02d", index / 12, index % 12 + 1);
   return buf;
-}
-
-// Streams (file path, record) of every ok image in [from_month, to_month]. Reads the store's
-// `images` table directly (docs/store.md) because the report needs the whole record (geometry
-// per side, the source path) and not only the aggregated columns.
-Status StreamRecords(const std::filesystem::path& store_file, const std::string& from_month,
-                     const std::string& to_month, ReportBuilder& builder, int64_t* unreadable) {
-  store_internal::Database db;
-  Status opened = db.Open(store_file.string(), SQLITE_OPEN_READONLY);
-  if (!opened.ok()) return opened;
-  auto s = db.Prepare(
-      "SELECT file_path, record_json FROM images WHERE status = 'ok' AND month >= ?1 "
-      "AND month <= ?2 ORDER BY id");
-  if (!s.ok()) return s.error();
-  s->Bind(1, from_month).Bind(2, to_month);
-  int code;
-  while ((code = s->Step()) == SQLITE_ROW) {
-    nlohmann::json json = nlohmann::json::parse(s->Text(1), nullptr, /*allow_exceptions=*/false);
-    Result<ImageRecord> record = json.is_discarded()
-                                     ? Result<ImageRecord>(MakeError(ErrorKind::kStore, "", "bad JSON"))
-                                     : RecordFromJson(json);
-    if (!record.ok()) {
-      ++*unreadable;
-      continue;
-    }
-    if (record->file.empty()) record->file = s->Text(0);
-    builder.Add(*record);
-  }
-  if (code != SQLITE_DONE) return db.MakeStoreError(code, "cannot read the images");
-  return Status::Ok();
 }
 
 std::string SafeFileStem(const std::string& label) {
@@ -179,10 +146,23 @@ Result<ReportOutcome> WriteReports(const ReportRequest& request) {
   }
   ReportBuilder builder(options);
   int64_t unreadable = 0;
-  Status streamed = StreamRecords(request.store, FirstTrendMonth(request.period, options.trend_months),
-                                  request.period, builder, &unreadable);
+  RecordRange range;
+  range.from_month = FirstTrendMonth(request.period, options.trend_months);
+  range.to_month = request.period;
+  Status streamed = (*store)->ForEachRecord(
+      range,
+      [&builder](const StoredRecord& stored) {
+        builder.Add(stored.record);
+        return true;
+      },
+      &unreadable);
   if (!streamed.ok()) return streamed.error();
   ReportModel model = builder.Finish();
+  // QC records up to the period's end: the last check before the period applied during it.
+  auto qc = BuildRoomQcHistory(**store, request.period.substr(0, 4) + request.period.substr(5, 2) + "01",
+                               request.period.substr(0, 4) + request.period.substr(5, 2) + "31");
+  if (!qc.ok()) return qc.error();
+  model.room_qc = std::move(*qc);
 
   ReportOutcome outcome;
   outcome.images_in_period = model.department.images;

@@ -1,9 +1,6 @@
 // Store schema history. Each entry is frozen once released: fix mistakes with a new entry.
 #include "store/migrations.h"
 
-#include <chrono>
-#include <ctime>
-
 #include "beamtrim/store.h"
 #include "beamtrim/version.h"
 
@@ -69,14 +66,27 @@ ALTER TABLE images ADD COLUMN record_version INTEGER NOT NULL DEFAULT 1;
 CREATE INDEX images_month ON images (month);
 )sql";
 
-std::string NowUtc() {
-  std::time_t now = std::chrono::system_clock::to_time_t(std::chrono::system_clock::now());
-  std::tm tm{};
-  gmtime_r(&now, &tm);
-  char text[32];
-  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return text;
-}
+// Version 3: the physicist's QC records of each room's beam-limiting device (docs/qc.md). IF NOT
+// EXISTS because `qc-field` created this very table outside the migrations before version 3.
+constexpr const char* kV3 = R"sql(
+CREATE TABLE IF NOT EXISTS qc_field_checks (
+  id INTEGER PRIMARY KEY,
+  station TEXT NOT NULL DEFAULT '',
+  check_date TEXT NOT NULL DEFAULT '',
+  image_file TEXT NOT NULL DEFAULT '',
+  overall TEXT NOT NULL CHECK (overall IN ('pass', 'fail', 'incomplete')),
+  sid_mm REAL,
+  edge_definition TEXT NOT NULL,
+  left_mm REAL, right_mm REAL, top_mm REAL, bottom_mm REAL,
+  width_sum_mm REAL,
+  length_sum_mm REAL,
+  centre_mm REAL,
+  software_version TEXT NOT NULL,
+  result_json TEXT NOT NULL,
+  stored_utc TEXT NOT NULL
+);
+CREATE INDEX IF NOT EXISTS qc_field_checks_station ON qc_field_checks (station, check_date);
+)sql";
 
 Status ApplyOne(Database& db, const Migration& migration) {
   Transaction transaction(db);
@@ -103,6 +113,7 @@ const std::vector<Migration>& Migrations() {
   static const std::vector<Migration> migrations = {
       {1, "images table", kV1},
       {2, "duplicate notes, record version, month index", kV2},
+      {3, "QC records of the beam-limiting devices (qc_field_checks)", kV3},
   };
   return migrations;
 }

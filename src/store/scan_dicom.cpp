@@ -4,10 +4,27 @@
 #include <thread>
 
 #include "beamtrim/scan.h"
+#include "beamtrim/version.h"
 #include "store/scan_internal.h"
 
 namespace beamtrim {
 namespace {
+
+// The record for a file that could not be read, built from the error of the one read already
+// made. It follows Measurer::MeasureFile's policy (unsupported = skipped, anything else =
+// error, reason without the file name, which the record carries); scan_test.cpp checks that
+// the two agree on broken files, so the policy cannot drift apart unnoticed.
+ImageRecord UnreadableRecord(const std::filesystem::path& file, const Error& error) {
+  ImageRecord record;
+  record.file = file.string();
+  record.status =
+      error.kind == ErrorKind::kUnsupported ? RecordStatus::kSkipped : RecordStatus::kError;
+  Error without_file = error;
+  without_file.file.clear();
+  record.reason = without_file.ToString();
+  record.software_version = kVersion;
+  return record;
+}
 
 class DicomMeasurer : public ImageMeasurer {
  public:
@@ -19,8 +36,8 @@ class DicomMeasurer : public ImageMeasurer {
     // carries the accession number and study UID that ImageRecord deliberately lacks.
     auto radiograph = ReadRadiograph(file, measurer_.options().read);
     if (!radiograph) {
-      // The Measurer owns the policy for unreadable and unsupported files (error or skipped).
-      out.record = measurer_.MeasureFile(file);
+      // No second read: the error of this one is the reason (MeasureFile would read again).
+      out.record = UnreadableRecord(file, radiograph.error());
       return out;
     }
     out.accession_number = radiograph->header.accession_number;

@@ -1,9 +1,20 @@
 // SQLite wrappers: every failure becomes an Error naming the store file and the reason.
 #include "store/sqlite_db.h"
 
+#include <chrono>
+#include <ctime>
 #include <utility>
 
 namespace beamtrim::store_internal {
+
+std::string NowUtc() {
+  std::time_t now = std::chrono::system_clock::to_time_t(std::chrono::system_clock::now());
+  std::tm tm{};
+  gmtime_r(&now, &tm);
+  char text[32];
+  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &tm);
+  return text;
+}
 
 std::string SqliteReason(sqlite3* db, int code) {
   int primary = code & 0xff;
@@ -114,6 +125,17 @@ Result<Statement> Database::Prepare(const std::string& sql) {
 
 Error Database::MakeStoreError(int code, const std::string& what) const {
   return MakeError(ErrorKind::kStore, file_, what + ": " + SqliteReason(db_, code));
+}
+
+Result<Statement*> StatementCache::Get(const std::string& sql) {
+  auto it = statements_.find(sql);
+  if (it == statements_.end()) {
+    auto prepared = db_.Prepare(sql);
+    if (!prepared) return prepared.error();
+    it = statements_.emplace(sql, std::move(*prepared)).first;
+  }
+  it->second.Reset();
+  return &it->second;
 }
 
 Transaction::~Transaction() {

@@ -6,12 +6,16 @@
 #include <cstdint>
 #include <optional>
 #include <string>
+#include <unordered_map>
 
 #include <sqlite3.h>
 
 #include "beamtrim/status.h"
 
 namespace beamtrim::store_internal {
+
+// Current time as ISO 8601 UTC (2026-12-02T05:14:33Z), for the *_utc columns.
+std::string NowUtc();
 
 // Plain-language reason for an SQLite failure; SQLITE_FULL gets a disk-full explanation.
 std::string SqliteReason(sqlite3* db, int code);
@@ -63,6 +67,34 @@ class Database {
  private:
   sqlite3* db_ = nullptr;
   std::string file_;
+};
+
+// Prepared statements kept for the life of a connection, so a batch of N records compiles each
+// statement once instead of N times. Not thread-safe (the Store's lock covers it).
+class StatementCache {
+ public:
+  explicit StatementCache(Database& db) : db_(db) {}
+  // The statement for `sql`, prepared on first use; reset, with no bindings.
+  Result<Statement*> Get(const std::string& sql);
+  // Drops every statement (before the connection closes).
+  void Clear() { statements_.clear(); }
+
+ private:
+  Database& db_;
+  std::unordered_map<std::string, Statement> statements_;
+};
+
+// Resets a cached statement when the scope ends: a SELECT left mid-way would otherwise keep a
+// read snapshot open, which holds back WAL checkpoints and hides later commits.
+class ResetOnExit {
+ public:
+  explicit ResetOnExit(Statement* statement) : statement_(statement) {}
+  ~ResetOnExit() { statement_->Reset(); }
+  ResetOnExit(const ResetOnExit&) = delete;
+  ResetOnExit& operator=(const ResetOnExit&) = delete;
+
+ private:
+  Statement* statement_;
 };
 
 // Commits on Commit(); rolls back when destroyed otherwise.

@@ -1,18 +1,22 @@
-// The SQLite store: opening and migrating, writing records with de-duplication, reading rows.
+// The SQLite store: opening and migrating, writing records with de-duplication.
+// Reading is in store_read.cpp, the QC records in store_qc.cpp.
 #include "beamtrim/store.h"
 
-#include <chrono>
-#include <ctime>
 #include <mutex>
 
 #include "beamtrim/version.h"
 #include "store/migrations.h"
 #include "store/sha256.h"
 #include "store/sqlite_db.h"
+#include "store/store_impl.h"
 
 namespace beamtrim {
 
 using store_internal::Database;
+using store_internal::kFindImage;
+using store_internal::kFindNote;
+using store_internal::NowUtc;
+using store_internal::ResetOnExit;
 using store_internal::Statement;
 using store_internal::Transaction;
 
@@ -32,19 +36,45 @@ std::string Placeholders(int count) {
   return out;
 }
 
-std::string NowUtc() {
-  std::time_t now = std::chrono::system_clock::to_time_t(std::chrono::system_clock::now());
-  std::tm tm{};
-  gmtime_r(&now, &tm);
-  char text[32];
-  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &tm);
-  return text;
-}
+// Every statement of the write path, prepared once per connection (StatementCache).
+const std::string kInsertImage = std::string("INSERT INTO images (") + kColumns + ") VALUES (" +
+                                 Placeholders(kColumnCount) + ")";
+const std::string kUpdateImage = std::string("UPDATE images SET (") + kColumns + ") = (" +
+                                 Placeholders(kColumnCount) + ") WHERE id = ?";
+constexpr const char* kDropNote = "DELETE FROM duplicates WHERE file_path = ?";
+constexpr const char* kImageByPath = "SELECT id FROM images WHERE file_path = ?";
+// The `<> ''` term repeats the WHERE of the partial index images_sop: without it SQLite cannot
+// prove that a bound parameter is non-empty, does not use the index and scans the whole table
+// for every record written (a cost that grew with the store: ~20 ms per record at 20 000 rows).
+constexpr const char* kImageBySop =
+    "SELECT id, file_path FROM images WHERE sop_instance_uid = ? AND sop_instance_uid <> ''";
+constexpr const char* kDropImage = "DELETE FROM images WHERE id = ?";
+constexpr const char* kUpsertNote =
+    "INSERT INTO duplicates (file_path, file_size, file_mtime_ns, sop_instance_uid, image_id, "
+    "note, stored_utc) VALUES (?, ?, ?, ?, ?, ?, ?) ON CONFLICT (file_path) DO UPDATE SET "
+    "file_size = excluded.file_size, file_mtime_ns = excluded.file_mtime_ns, "
+    "sop_instance_uid = excluded.sop_instance_uid, image_id = excluded.image_id, "
+    "note = excluded.note, stored_utc = excluded.stored_utc";
 
-RecordStatus StatusFromName(const std::string& name) {
-  if (name == "skipped") return RecordStatus::kSkipped;
-  if (name == "error") return RecordStatus::kError;
-  return RecordStatus::kOk;
+void BindRow(Statement& s, const Store::Impl& impl, const MeasuredImage& image,
+             const FileIdentity& id, const std::string& now) {
+  const ImageRecord& r = image.record;
+  const RecordContext& c = r.context;
+  ExtractedColumns x = ExtractColumns(r);
+  s.Bind(1, id.path).Bind(2, id.size).Bind(3, id.mtime_ns).Bind(4, r.sop_instance_uid);
+  s.Bind(5, std::string(RecordStatusName(r.status))).Bind(6, r.reason);
+  std::string accession = impl.Hash("accession", image.accession_number);
+  std::string study = impl.Hash("study", image.study_instance_uid);
+  if (accession.empty()) s.BindNull(7); else s.Bind(7, accession);
+  if (study.empty()) s.BindNull(8); else s.Bind(8, study);
+  s.Bind(9, c.operator_name).Bind(10, c.station).Bind(11, c.body_part).Bind(12, c.view);
+  s.Bind(13, c.protocol).Bind(14, c.study_date).Bind(15, c.month).Bind(16, x.outcome);
+  s.Bind(17, int64_t{x.assessable}).Bind(18, int64_t{x.all_borders_visible});
+  s.Bind(19, int64_t{x.anatomy_clipped}).Bind(20, int64_t{x.blanked_or_cropped});
+  s.Bind(21, x.excess_fraction).Bind(22, x.excess_area_mm2).Bind(23, x.excess_area_patient_mm2);
+  s.Bind(24, x.kap_dgy_cm2).Bind(25, x.avoidable_kap_dgy_cm2);
+  s.Bind(26, r.software_version.empty() ? std::string(kVersion) : r.software_version);
+  s.Bind(27, ToJsonLine(r)).Bind(28, now).Bind(29, int64_t{kRecordVersion});
 }
 
 }  // namespace
@@ -58,113 +88,97 @@ const char* PutOutcomeName(PutOutcome outcome) {
   return "inserted";
 }
 
-struct Store::Impl {
-  std::filesystem::path file;
-  Database db;
-  mutable std::mutex mutex;
-  int version = 0;
-  std::optional<std::array<uint8_t, 32>> key;
-  std::filesystem::path key_file;
-
-  std::string Hash(const std::string& kind, const std::string& value) const {
-    if (value.empty() || !key) return {};
-    std::string_view key_view(reinterpret_cast<const char*>(key->data()), key->size());
-    return store_internal::ToHex(store_internal::HmacSha256(key_view, kind + ":" + value));
-  }
-
-  Status BindRow(Statement& s, const MeasuredImage& image, const FileIdentity& id) const;
-  Result<PutOutcome> PutLocked(const MeasuredImage& image, const FileIdentity& id);
-  Status RecordDuplicate(const FileIdentity& id, const std::string& sop, int64_t image_id,
-                         const std::string& stored_path);
-};
-
-Status Store::Impl::BindRow(Statement& s, const MeasuredImage& image,
-                            const FileIdentity& id) const {
-  const ImageRecord& r = image.record;
-  const RecordContext& c = r.context;
-  ExtractedColumns x = ExtractColumns(r);
-  s.Bind(1, id.path).Bind(2, id.size).Bind(3, id.mtime_ns).Bind(4, r.sop_instance_uid);
-  s.Bind(5, std::string(RecordStatusName(r.status))).Bind(6, r.reason);
-  std::string accession = Hash("accession", image.accession_number);
-  std::string study = Hash("study", image.study_instance_uid);
-  if (accession.empty()) s.BindNull(7); else s.Bind(7, accession);
-  if (study.empty()) s.BindNull(8); else s.Bind(8, study);
-  s.Bind(9, c.operator_name).Bind(10, c.station).Bind(11, c.body_part).Bind(12, c.view);
-  s.Bind(13, c.protocol).Bind(14, c.study_date).Bind(15, c.month).Bind(16, x.outcome);
-  s.Bind(17, int64_t{x.assessable}).Bind(18, int64_t{x.all_borders_visible});
-  s.Bind(19, int64_t{x.anatomy_clipped}).Bind(20, int64_t{x.blanked_or_cropped});
-  s.Bind(21, x.excess_fraction).Bind(22, x.excess_area_mm2).Bind(23, x.excess_area_patient_mm2);
-  s.Bind(24, x.kap_dgy_cm2).Bind(25, x.avoidable_kap_dgy_cm2);
-  s.Bind(26, r.software_version.empty() ? std::string(kVersion) : r.software_version);
-  s.Bind(27, ToJsonLine(r)).Bind(28, NowUtc()).Bind(29, int64_t{kRecordVersion});
-  return Status::Ok();
+std::string Store::Impl::Hash(const std::string& kind, const std::string& value) const {
+  if (value.empty() || !key) return {};
+  std::string_view key_view(reinterpret_cast<const char*>(key->data()), key->size());
+  return store_internal::ToHex(store_internal::HmacSha256(key_view, kind + ":" + value));
 }
 
 Status Store::Impl::RecordDuplicate(const FileIdentity& id, const std::string& sop,
                                     int64_t image_id, const std::string& stored_path) {
-  auto s = db.Prepare(
-      "INSERT INTO duplicates (file_path, file_size, file_mtime_ns, sop_instance_uid, image_id, "
-      "note, stored_utc) VALUES (?, ?, ?, ?, ?, ?, ?) ON CONFLICT (file_path) DO UPDATE SET "
-      "file_size = excluded.file_size, file_mtime_ns = excluded.file_mtime_ns, "
-      "sop_instance_uid = excluded.sop_instance_uid, image_id = excluded.image_id, "
-      "note = excluded.note, stored_utc = excluded.stored_utc");
+  auto s = statements.Get(kUpsertNote);
   if (!s) return s.error();
-  s->Bind(1, id.path).Bind(2, id.size).Bind(3, id.mtime_ns).Bind(4, sop).Bind(5, image_id);
-  s->Bind(6, "same SOP Instance UID as the stored file " + stored_path + ": not stored twice");
-  s->Bind(7, NowUtc());
-  if (int code = s->Step(); code != SQLITE_DONE) {
+  ResetOnExit reset(*s);
+  (*s)->Bind(1, id.path).Bind(2, id.size).Bind(3, id.mtime_ns).Bind(4, sop).Bind(5, image_id);
+  (*s)->Bind(6, "same SOP Instance UID as the stored file " + stored_path + ": not stored twice");
+  (*s)->Bind(7, NowUtc());
+  if (int code = (*s)->Step(); code != SQLITE_DONE) {
     return db.MakeStoreError(code, "cannot record a duplicate of " + id.path);
   }
   return Status::Ok();
 }
 
+namespace {
+
+// Runs a cached statement that returns no rows, with `bind` filling its parameters.
+template <class Bind>
+Status Run(Store::Impl& impl, const std::string& sql, const std::string& what, Bind bind) {
+  auto s = impl.statements.Get(sql);
+  if (!s) return s.error();
+  ResetOnExit reset(*s);
+  bind(**s);
+  if (int code = (*s)->Step(); code != SQLITE_DONE) return impl.db.MakeStoreError(code, what);
+  return Status::Ok();
+}
+
+}  // namespace
+
 Result<PutOutcome> Store::Impl::PutLocked(const MeasuredImage& image, const FileIdentity& id) {
   const std::string& sop = image.record.sop_instance_uid;
   // A re-measured path replaces whatever was known about it.
-  auto drop_note = db.Prepare("DELETE FROM duplicates WHERE file_path = ?");
-  if (!drop_note) return drop_note.error();
-  drop_note->Bind(1, id.path);
-  if (int code = drop_note->Step(); code != SQLITE_DONE) {
-    return db.MakeStoreError(code, "cannot update " + id.path);
+  if (Status st = Run(*this, kDropNote, "cannot update " + id.path,
+                      [&](Statement& s) { s.Bind(1, id.path); });
+      !st) {
+    return st.error();
   }
   std::optional<int64_t> same_path;
-  auto by_path = db.Prepare("SELECT id FROM images WHERE file_path = ?");
-  if (!by_path) return by_path.error();
-  by_path->Bind(1, id.path);
-  if (by_path->Step() == SQLITE_ROW) same_path = by_path->Int(0);
-
+  {
+    auto by_path = statements.Get(kImageByPath);
+    if (!by_path) return by_path.error();
+    ResetOnExit reset(*by_path);
+    (*by_path)->Bind(1, id.path);
+    if ((*by_path)->Step() == SQLITE_ROW) same_path = (*by_path)->Int(0);
+  }
   if (!sop.empty()) {
-    auto by_sop = db.Prepare("SELECT id, file_path FROM images WHERE sop_instance_uid = ?");
-    if (!by_sop) return by_sop.error();
-    by_sop->Bind(1, sop);
-    if (by_sop->Step() == SQLITE_ROW && (!same_path || by_sop->Int(0) != *same_path)) {
-      int64_t other = by_sop->Int(0);
-      std::string other_path = by_sop->Text(1);
+    std::optional<std::pair<int64_t, std::string>> other;
+    {
+      auto by_sop = statements.Get(kImageBySop);
+      if (!by_sop) return by_sop.error();
+      ResetOnExit reset(*by_sop);
+      (*by_sop)->Bind(1, sop);
+      if ((*by_sop)->Step() == SQLITE_ROW && (!same_path || (*by_sop)->Int(0) != *same_path)) {
+        other.emplace((*by_sop)->Int(0), (*by_sop)->Text(1));
+      }
+    }
+    if (other) {
       if (same_path) {
-        auto drop = db.Prepare("DELETE FROM images WHERE id = ?");
-        if (!drop) return drop.error();
-        drop->Bind(1, *same_path);
-        if (int code = drop->Step(); code != SQLITE_DONE) {
-          return db.MakeStoreError(code, "cannot update " + id.path);
+        if (Status st = Run(*this, kDropImage, "cannot update " + id.path,
+                            [&](Statement& s) { s.Bind(1, *same_path); });
+            !st) {
+          return st.error();
         }
       }
-      if (Status st = RecordDuplicate(id, sop, other, other_path); !st) return st.error();
+      if (Status st = RecordDuplicate(id, sop, other->first, other->second); !st) {
+        return st.error();
+      }
       return PutOutcome::kDuplicate;
     }
   }
-  std::string sql =
-      same_path ? std::string("UPDATE images SET (") + kColumns + ") = (" +
-                      Placeholders(kColumnCount) + ") WHERE id = ?"
-                : std::string("INSERT INTO images (") + kColumns + ") VALUES (" +
-                      Placeholders(kColumnCount) + ")";
-  auto write = db.Prepare(sql);
-  if (!write) return write.error();
-  if (Status st = BindRow(*write, image, id); !st) return st.error();
-  if (same_path) write->Bind(kColumnCount + 1, *same_path);
-  if (int code = write->Step(); code != SQLITE_DONE) {
-    return db.MakeStoreError(code, "cannot store the record of " + id.path);
+  if (Status st = Run(*this, same_path ? kUpdateImage : kInsertImage,
+                      "cannot store the record of " + id.path,
+                      [&](Statement& s) {
+                        BindRow(s, *this, image, id, NowUtc());
+                        if (same_path) s.Bind(kColumnCount + 1, *same_path);
+                      });
+      !st) {
+    return st.error();
   }
   return same_path ? PutOutcome::kReplaced : PutOutcome::kInserted;
+}
+
+std::vector<std::string> store_internal::PerRecordQueries() {
+  return {kInsertImage, kUpdateImage, kDropNote,  kImageByPath, kImageBySop,
+          kDropImage,   kUpsertNote,  kFindImage, kFindNote};
 }
 
 Store::Store(std::unique_ptr<Impl> impl) : impl_(std::move(impl)) {}
@@ -245,27 +259,6 @@ Result<std::unique_ptr<Store>> Store::Open(const std::filesystem::path& file,
   return std::unique_ptr<Store>(new Store(std::move(impl)));
 }
 
-Result<std::optional<StoredFile>> Store::Find(const std::string& path) const {
-  std::lock_guard lock(impl_->mutex);
-  for (bool duplicate : {false, true}) {
-    auto s = impl_->db.Prepare(
-        duplicate ? "SELECT file_size, file_mtime_ns, 'ok' FROM duplicates WHERE file_path = ?"
-                  : "SELECT file_size, file_mtime_ns, status FROM images WHERE file_path = ?");
-    if (!s) return s.error();
-    s->Bind(1, path);
-    int code = s->Step();
-    if (code == SQLITE_ROW) {
-      StoredFile found;
-      found.identity = {path, s->Int(0), s->Int(1)};
-      found.status = StatusFromName(s->Text(2));
-      found.duplicate = duplicate;
-      return std::optional<StoredFile>(found);
-    }
-    if (code != SQLITE_DONE) return impl_->db.MakeStoreError(code, "cannot look up " + path);
-  }
-  return std::optional<StoredFile>();
-}
-
 Result<PutOutcome> Store::Put(const MeasuredImage& image, const FileIdentity& identity) {
   std::vector<PutOutcome> outcomes;
   if (Status s = PutBatch({{image, identity}}, &outcomes); !s) return s.error();
@@ -289,75 +282,6 @@ Status Store::PutBatch(const std::vector<std::pair<MeasuredImage, FileIdentity>>
   Status committed = transaction.Commit();
   if (!committed) outcomes->clear();
   return committed;
-}
-
-StoreCounts Store::Counts() const {
-  std::lock_guard lock(impl_->mutex);
-  StoreCounts counts;
-  auto s = impl_->db.Prepare("SELECT status, count(*) FROM images GROUP BY status");
-  if (s) {
-    while (s->Step() == SQLITE_ROW) {
-      RecordStatus status = StatusFromName(s->Text(0));
-      int64_t n = s->Int(1);
-      if (status == RecordStatus::kOk) counts.ok = n;
-      if (status == RecordStatus::kSkipped) counts.skipped = n;
-      if (status == RecordStatus::kError) counts.error = n;
-    }
-  }
-  auto d = impl_->db.Prepare("SELECT count(*) FROM duplicates");
-  if (d && d->Step() == SQLITE_ROW) counts.duplicates = d->Int(0);
-  return counts;
-}
-
-Status Store::ForEachRow(const std::string& from_date, const std::string& to_date,
-                         const std::function<bool(const StoredRow&)>& visit) const {
-  std::lock_guard lock(impl_->mutex);
-  auto s = impl_->db.Prepare(
-      "SELECT operator, station, body_part, view, protocol, study_date, month, outcome, "
-      "assessable, all_borders_visible, anatomy_clipped, blanked_or_cropped, excess_fraction, "
-      "excess_area_mm2, excess_area_patient_mm2, kap_dgy_cm2, avoidable_kap_dgy_cm2 "
-      "FROM images WHERE status = 'ok' AND (?1 = '' OR study_date >= ?1) "
-      "AND (?2 = '' OR study_date <= ?2) ORDER BY id");
-  if (!s) return s.error();
-  s->Bind(1, from_date).Bind(2, to_date);
-  StoredRow row;
-  int code;
-  while ((code = s->Step()) == SQLITE_ROW) {
-    row.operator_name = s->Text(0);
-    row.station = s->Text(1);
-    row.body_part = s->Text(2);
-    row.view = s->Text(3);
-    row.protocol = s->Text(4);
-    row.study_date = s->Text(5);
-    row.month = s->Text(6);
-    ExtractedColumns& v = row.values;
-    v.outcome = s->Text(7);
-    v.assessable = s->Int(8) != 0;
-    v.all_borders_visible = s->Int(9) != 0;
-    v.anatomy_clipped = s->Int(10) != 0;
-    v.blanked_or_cropped = s->Int(11) != 0;
-    v.excess_fraction = s->Real(12);
-    v.excess_area_mm2 = s->Real(13);
-    v.excess_area_patient_mm2 = s->Real(14);
-    v.kap_dgy_cm2 = s->Real(15);
-    v.avoidable_kap_dgy_cm2 = s->Real(16);
-    if (!visit(row)) return Status::Ok();
-  }
-  if (code != SQLITE_DONE) return impl_->db.MakeStoreError(code, "cannot read the images");
-  return Status::Ok();
-}
-
-std::string Store::KeyedHash(const std::string& kind, const std::string& value) const {
-  return impl_->Hash(kind, value);
-}
-
-Result<std::optional<std::string>> Store::RecordJson(const std::string& sop) const {
-  std::lock_guard lock(impl_->mutex);
-  auto s = impl_->db.Prepare("SELECT record_json FROM images WHERE sop_instance_uid = ?");
-  if (!s) return s.error();
-  s->Bind(1, sop);
-  if (s->Step() == SQLITE_ROW) return std::optional<std::string>(s->Text(0));
-  return std::optional<std::string>();
 }
 
 Status MigrateStoreFile(const std::filesystem::path& file, int target_version) {

@@ -5,6 +5,8 @@
 #include <cmath>
 #include <map>
 
+#include "store/tables_internal.h"
+
 namespace beamtrim {
 namespace {
 
@@ -223,6 +225,7 @@ Result<AuditTables> BuildAuditTables(const Store& store, const TableOptions& opt
   }
   std::vector<std::map<std::vector<std::string>, Accumulator>> groups(layouts.size());
   TrendMap by_operator, by_station;
+  std::map<std::string, store_internal::RoomClinical> rooms;
 
   AuditTables result;
   result.from_date = NormaliseDate(options.from_date);
@@ -235,6 +238,7 @@ Result<AuditTables> BuildAuditTables(const Store& store, const TableOptions& opt
       for (GroupKey k : layouts[t]) group.push_back(keys.Key(k, row));
       groups[t][group].Add(row.values);
     }
+    rooms[store_internal::RoomLabel(row.station)].Add(row.values);
     if (row.values.assessable) {
       std::string month = keys.Key(GroupKey::kMonth, row);
       for (auto [by, map] : {std::pair{GroupKey::kOperator, &by_operator},
@@ -259,6 +263,9 @@ Result<AuditTables> BuildAuditTables(const Store& store, const TableOptions& opt
     }
     result.tables.push_back(std::move(table));
   }
+  auto qc = store_internal::JoinRoomQc(store, rooms, result.to_date);
+  if (!qc) return qc.error();
+  result.qc = std::move(*qc);
   result.trend = MakeSeries(GroupKey::kOperator, by_operator);
   for (TrendSeries& s : MakeSeries(GroupKey::kStation, by_station)) {
     result.trend.push_back(std::move(s));

@@ -22,6 +22,7 @@ struct Column {
 
 struct Sheet {
   std::string name;
+  std::string caution = kTablesCaution;  // first line of the sheet
   std::vector<Column> columns;
   std::vector<std::vector<Cell>> rows;
   std::vector<bool> small;  // per row: rates unreliable (marked in XLSX)
@@ -103,9 +104,50 @@ Sheet TrendSheet(const std::vector<TrendSeries>& trend) {
   return sheet;
 }
 
+// One row per QC record of each room, the room's clinical figures repeated beside each; a room
+// without any QC record gets one row that says so.
+Sheet QcSheet(const std::vector<RoomQcHistory>& rooms) {
+  Sheet sheet;
+  sheet.name = "qc-history";
+  sheet.caution = std::string(kQcCaution) + " " + kTablesCaution;
+  sheet.columns = {
+      {"room", "room (Station Name)"},
+      {"images", "clinical images in the period (n)"},
+      {"needs_review_pct", "clinical: needs review (% of assessable)"},
+      {"qc_date", "QC exposure date (YYYYMMDD)"},
+      {"qc_overall", "QC overall (pass, fail, incomplete)"},
+      {"width_axis", "left + right misalignment vs 2 % of SID"},
+      {"length_axis", "top + bottom misalignment vs 2 % of SID"},
+      {"worst_edge", "edge with the largest misalignment"},
+      {"worst_edge_mm", "its misalignment, x-ray minus light (mm, detector plane)"},
+      {"worst_edge_pct_sid", "its misalignment (% of SID)"},
+      {"sid_mm", "SID (mm)"},
+  };
+  for (const RoomQcHistory& room : rooms) {
+    std::vector<Cell> clinical = {room.station, room.images, Opt(room.pct_needs_review)};
+    if (room.checks.empty()) {
+      std::vector<Cell> row = clinical;
+      row.insert(row.end(), {Cell(), std::string("no QC record in the store"), Cell(), Cell(),
+                             Cell(), Cell(), Cell(), Cell()});
+      sheet.rows.push_back(std::move(row));
+      sheet.small.push_back(false);
+    }
+    for (const QcHistoryEntry& e : room.checks) {
+      std::vector<Cell> row = clinical;
+      row.insert(row.end(), {e.date, e.overall, e.width_axis, e.length_axis,
+                             e.worst_edge.empty() ? Cell() : Cell(e.worst_edge),
+                             Opt(e.worst_edge_mm), Opt(e.worst_edge_pct_sid), Opt(e.sid_mm)});
+      sheet.rows.push_back(std::move(row));
+      sheet.small.push_back(false);
+    }
+  }
+  return sheet;
+}
+
 std::vector<Sheet> MakeSheets(const AuditTables& tables) {
   std::vector<Sheet> sheets;
   for (const AuditTable& t : tables.tables) sheets.push_back(TableSheet(t, tables.min_n));
+  sheets.push_back(QcSheet(tables.qc));
   sheets.push_back(TrendSheet(tables.trend));
   return sheets;
 }
@@ -145,7 +187,7 @@ Status WriteCsv(const std::vector<Sheet>& sheets, const std::filesystem::path& f
   for (const Sheet& sheet : sheets) {
     auto file = folder / (sheet.name + ".csv");
     std::ofstream out(file, std::ios::binary | std::ios::trunc);
-    out << CsvField(kTablesCaution) << "\r\n";
+    out << CsvField(sheet.caution) << "\r\n";
     for (size_t c = 0; c < sheet.columns.size(); ++c) {
       out << (c ? "," : "") << CsvField(sheet.columns[c].label);
     }
@@ -187,7 +229,9 @@ Status WriteJson(const AuditTables& tables, const std::vector<Sheet>& sheets,
       for (size_t c = 0; c < row.size(); ++c) object[sheet.columns[c].key] = CellJson(row[c]);
       rows.push_back(std::move(object));
     }
-    doc["tables"].push_back({{"name", sheet.name}, {"columns", columns}, {"rows", rows}});
+    nlohmann::json table = {{"name", sheet.name}, {"columns", columns}, {"rows", rows}};
+    if (sheet.caution != kTablesCaution) table["caution"] = sheet.caution;
+    doc["tables"].push_back(std::move(table));
   }
   std::ofstream out(file, std::ios::binary | std::ios::trunc);
   out << doc.dump(2) << "\n";
@@ -200,7 +244,7 @@ void WriteXlsxSheet(lxw_workbook* book, const Sheet& sheet, lxw_format* bold,
                     lxw_format* caution, lxw_format* marked) {
   // Sheet names are limited to 31 characters in the XLSX format.
   lxw_worksheet* ws = workbook_add_worksheet(book, sheet.name.substr(0, 31).c_str());
-  worksheet_write_string(ws, 0, 0, kTablesCaution, caution);
+  worksheet_write_string(ws, 0, 0, sheet.caution.c_str(), caution);
   lxw_row_t header = 2;
   for (size_t c = 0; c < sheet.columns.size(); ++c) {
     worksheet_write_string(ws, header, static_cast<lxw_col_t>(c), sheet.columns[c].label.c_str(),

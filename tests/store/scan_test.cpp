@@ -4,6 +4,7 @@
 
 #include <signal.h>
 #include <sqlite3.h>
+#include <sys/inotify.h>
 #include <sys/wait.h>
 #include <unistd.h>
 
@@ -12,6 +13,8 @@
 #include <sstream>
 #include <thread>
 
+#include "beamtrim/dicom.h"
+#include "beamtrim/measure.h"
 #include "store_fixtures.h"
 
 using namespace beamtrim;
@@ -129,7 +132,61 @@ class StopAfter : public ScanProgress {
   int64_t after_;
 };
 
+// How many times `body` opens `file`, counted by the kernel (inotify(7), IN_OPEN).
+template <class Body>
+int CountOpens(const std::filesystem::path& file, Body body) {
+  int fd = ::inotify_init1(IN_NONBLOCK | IN_CLOEXEC);
+  REQUIRE(fd >= 0);
+  REQUIRE(::inotify_add_watch(fd, file.c_str(), IN_OPEN) >= 0);
+  body();
+  int opens = 0;
+  alignas(inotify_event) char buffer[4096];
+  for (ssize_t n; (n = ::read(fd, buffer, sizeof buffer)) > 0;) {
+    for (char* p = buffer; p < buffer + n;) {
+      auto* event = reinterpret_cast<inotify_event*>(p);
+      opens += (event->mask & IN_OPEN) != 0;
+      p += sizeof(inotify_event) + event->len;
+    }
+  }
+  ::close(fd);
+  return opens;
+}
+
 }  // namespace
+
+TEST_CASE("UnreadableFilesAreReadOnceAndRecordedAsMeasureFileRecordsThem") {
+  // The broken-file corpus (testdata/broken, scripts/make-broken-corpus.sh). For every file the
+  // reader refuses, the scan's measurer must open it no more often than one ReadRadiograph does
+  // (it used to read it a second time through Measurer::MeasureFile), and give the same record.
+  RegisterDicomCodecs();
+  auto measurer = Measurer::Create({});
+  REQUIRE(measurer.ok());
+  auto dicom = MakeDicomMeasurer(*measurer);
+  TempDir dir;
+  int refused = 0;
+  for (const auto& entry :
+       std::filesystem::directory_iterator(std::string(BEAMTRIM_SOURCE_DIR) + "/testdata/broken")) {
+    if (entry.path().extension() != ".dcm") continue;
+    // A private copy: nothing else opens it while its opens are counted.
+    auto file = dir / entry.path().filename().string();
+    std::filesystem::copy_file(entry.path(), file);
+    bool readable = true;
+    int read_opens = CountOpens(file, [&] { readable = ReadRadiograph(file).ok(); });
+    if (readable) continue;
+    ++refused;
+    MeasuredImage scanned;
+    int scan_opens = CountOpens(file, [&] { scanned = dicom->Measure(file); });
+    INFO(file.filename().string());
+    CHECK(read_opens >= 1);
+    CHECK(scan_opens == read_opens);
+    ImageRecord expected = measurer->MeasureFile(file);
+    CHECK(scanned.record.status == expected.status);
+    CHECK(scanned.record.reason == expected.reason);
+    CHECK(scanned.record.file == expected.file);
+    CHECK(scanned.record.software_version == expected.software_version);
+  }
+  CHECK(refused >= 10);  // the corpus holds dozens of files the reader must refuse
+}
 
 TEST_CASE("SecondScanSkipsUnchangedFilesAndMeasuresChangedOnes") {
   TempDir dir;
