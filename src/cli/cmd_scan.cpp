@@ -9,14 +9,14 @@
 
 #include "beamtrim/scan.h"
 #include "cli/commands.h"
+#include "cli/store_options.h"
 
 namespace beamtrim::cli {
 namespace {
 
 struct ScanArgs {
   std::vector<std::string> inputs;
-  std::string store;
-  std::string key_file;
+  StoreArgs store;
   std::string rules;
   int threads = 0;
   bool retry_errors = false;
@@ -29,8 +29,8 @@ extern "C" void OnInterrupt(int) { g_stop = true; }
 int RunScan(const ScanArgs& args) {
   ScanOptions options;
   options.inputs.assign(args.inputs.begin(), args.inputs.end());
-  options.store_file = args.store;
-  options.key_file = args.key_file;
+  options.store_file = args.store.store;
+  options.key_file = args.store.key_file;
   options.rules_file = args.rules;
   options.threads = args.threads;
   options.retry_errors = args.retry_errors;
@@ -65,13 +65,10 @@ void AddScanCommand(CLI::App& app) {
       "in parallel and record each result in an audit store (one SQLite file). A second run\n"
       "skips unchanged files already stored; an interrupted run resumes (docs/store.md).");
   cmd->add_option("inputs", args->inputs, "DICOM files, folders or DICOMDIRs")->required();
-  cmd->add_option("--store", args->store, "Audit store file (created when absent)")->required();
+  AddStoreOptions(cmd, args->store, StoreUse::kWrite);
   cmd->add_option("--threads", args->threads, "Measuring threads (default: all cores)")
       ->check(CLI::NonNegativeNumber);
   cmd->add_option("--rules", args->rules, "Rules file for the verdicts (default: shipped rules)");
-  cmd->add_option("--key-file", args->key_file,
-                  "Secret key for the hashed accession numbers and study UIDs\n"
-                  "(default: STORE.key, created with mode 0600 on first use)");
   cmd->add_flag("--retry-errors", args->retry_errors,
                 "Measure again unchanged files that failed in an earlier run");
   cmd->callback([args] { ExitCode() = RunScan(*args); });

@@ -7,19 +7,19 @@
 
 #include "beamtrim/tables.h"
 #include "cli/commands.h"
+#include "cli/store_options.h"
 
 namespace beamtrim::cli {
 namespace {
 
 struct TablesArgs {
-  std::string store;
+  StoreArgs store;
   std::vector<std::string> by;
   std::string from, to;
   std::string format = "csv";
   std::string out;
   int64_t min_n = 20;
   bool pseudonymise = false;
-  std::string key_file;
 };
 
 // "--by operator --by station,month" -> {{operator}, {station, month}}.
@@ -45,7 +45,7 @@ int RunTables(const TablesArgs& args) {
   options.to_date = args.to;
   options.min_n = args.min_n;
   options.pseudonymise = args.pseudonymise;
-  options.key_file = args.key_file;
+  options.key_file = args.store.key_file;
   auto layouts = ParseLayouts(args.by);
   auto format = ParseTableFormat(args.format);
   Status valid = !layouts ? Status(layouts.error())
@@ -58,7 +58,7 @@ int RunTables(const TablesArgs& args) {
   options.tables = *layouts;
   StoreOptions store_options;
   store_options.read_only = true;
-  auto store = Store::Open(args.store, store_options);
+  auto store = Store::Open(args.store.store, store_options);
   if (!store) {
     std::cerr << "beamtrim tables: " << store.error().ToString() << "\n";
     return kExitFailure;
@@ -72,8 +72,9 @@ int RunTables(const TablesArgs& args) {
     std::cerr << "beamtrim tables: " << s.error().ToString() << "\n";
     return kExitFailure;
   }
-  std::cerr << "beamtrim tables: wrote " << tables->tables.size() << " tables and the trend to "
-            << args.out << "\n" << kTablesCaution << "\n";
+  std::cerr << "beamtrim tables: wrote " << tables->tables.size()
+            << " tables, the rooms' QC history and the trend to " << args.out << "\n"
+            << kTablesCaution << "\n" << kQcCaution << "\n";
   if (!args.pseudonymise) {
     std::cerr << "Radiographers are named: use --pseudonymise before sharing outside the "
                  "department.\n";
@@ -88,9 +89,10 @@ void AddTablesCommand(CLI::App& app) {
   CLI::App* cmd = app.add_subcommand(
       "tables",
       "Audit tables from the store: per radiographer, room, exam or month, with the excess\n"
-      "exposed area, rule breaches, clipping and avoidable KAP, plus monthly trends with\n"
-      "p-chart control limits. Dose figures are estimates for quality improvement.");
-  cmd->add_option("--store", args->store, "Audit store written by `beamtrim scan`")->required();
+      "exposed area, rule breaches, clipping and avoidable KAP, each room's QC history\n"
+      "(light field / x-ray field checks) beside its clinical figures, and monthly trends\n"
+      "with p-chart control limits. Dose figures are estimates for quality improvement.");
+  AddStoreOptions(cmd, args->store, StoreUse::kReadPseudonymised);
   cmd->add_option("--by", args->by,
                   "Grouping: operator, station, exam (body part + view) or month; repeat for\n"
                   "more tables, join with commas to cross them (operator,month).\n"
@@ -104,9 +106,6 @@ void AddTablesCommand(CLI::App& app) {
                   "Mark rates of groups with fewer assessable images than this (default 20)");
   cmd->add_flag("--pseudonymise", args->pseudonymise,
                 "Replace radiographer names with stable codes (STAFF-XXXXXX)");
-  cmd->add_option("--key-file", args->key_file,
-                  "Secret key for the codes (created with mode 0600 when absent; keep it with\n"
-                  "the manager)");
   cmd->callback([args] { ExitCode() = RunTables(*args); });
 }
 
