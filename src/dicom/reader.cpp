@@ -5,6 +5,7 @@
 #include <cmath>
 #include <fstream>
 #include <memory>
+#include <optional>
 #include <set>
 
 #include <dcmtk/dcmdata/dcpixel.h>
@@ -12,6 +13,7 @@
 #include <dcmtk/dcmdata/dcpxitem.h>
 
 #include "dicom/dicom_internal.h"
+#include "dicom/jpeg_frame.h"
 
 namespace beamtrim {
 namespace fs = std::filesystem;
@@ -224,17 +226,44 @@ Result<std::vector<uint8_t>> FirstFrameBytes(const Context& c, DcmPixelSequence&
   return bytes;
 }
 
-Result<Stored> DecodeJpeg2000(const Context& c, DcmElement& pixel, const RadiographHeader& h,
-                              std::vector<std::string>& notes) {
+// The bytes of frame 1 for the codecs beamtrim decodes itself, from the sequence of fragments
+// DCMTK keeps in the file's own (encapsulated) representation. `codec` names the syntax in the
+// error when the pixel data is not encapsulated after all.
+Result<std::vector<uint8_t>> EncapsulatedFirstFrame(const Context& c, DcmElement& pixel,
+                                                    const RadiographHeader& h,
+                                                    const std::string& codec) {
   auto& pd = static_cast<DcmPixelData&>(pixel);
   E_TransferSyntax xfer = EXS_Unknown;
   const DcmRepresentationParameter* param = nullptr;
   pd.getOriginalRepresentationKey(xfer, param);
   DcmPixelSequence* seq = nullptr;
   if (pd.getEncapsulatedRepresentation(xfer, param, seq).bad() || seq == nullptr) {
-    return Fail(c, ErrorKind::kMalformed, DCM_PixelData, "JPEG 2000 pixel data is not encapsulated");
+    return Fail(c, ErrorKind::kMalformed, DCM_PixelData, codec + " pixel data is not encapsulated");
   }
-  Result<std::vector<uint8_t>> bytes = FirstFrameBytes(c, *seq, h);
+  return FirstFrameBytes(c, *seq, h);
+}
+
+// DCMTK decodes a JPEG or JPEG-LS frame into a buffer sized from Rows and Columns without
+// comparing the two, so a header that lies about the size gave an image partly made of an
+// empty buffer, measured as if real (a fuzzing finding). The frame header must agree.
+Status CheckJpegFrameSize(const Context& c, DcmElement& pixel, const RadiographHeader& h) {
+  Result<std::vector<uint8_t>> bytes = EncapsulatedFirstFrame(c, pixel, h, "JPEG");
+  if (!bytes) return bytes.error();
+  std::optional<JpegFrameSize> frame = ReadJpegFrameSize(bytes->data(), bytes->size());
+  // No readable frame header, or lines given later by a DNL marker: DCMTK's decoder judges.
+  if (!frame || frame->lines == 0) return Status::Ok();
+  if (frame->columns != h.columns || frame->lines != h.rows) {
+    return Fail(c, ErrorKind::kMalformed, DCM_PixelData,
+                "JPEG frame is " + std::to_string(frame->columns) + " x " +
+                    std::to_string(frame->lines) + " but Columns x Rows declare " +
+                    std::to_string(h.columns) + " x " + std::to_string(h.rows));
+  }
+  return Status::Ok();
+}
+
+Result<Stored> DecodeJpeg2000(const Context& c, DcmElement& pixel, const RadiographHeader& h,
+                              std::vector<std::string>& notes) {
+  Result<std::vector<uint8_t>> bytes = EncapsulatedFirstFrame(c, pixel, h, "JPEG 2000");
   if (!bytes) return bytes.error();
   Result<J2kImage> img = DecodeJ2k(bytes->data(), bytes->size(), c.options.max_pixels);
   if (!img) return Fail(c, ErrorKind::kMalformed, DCM_PixelData, img.error().reason);
@@ -261,15 +290,7 @@ Result<Stored> DecodeJpeg2000(const Context& c, DcmElement& pixel, const Radiogr
 
 // RLE Lossless is decoded by beamtrim itself (src/dicom/rle.cpp explains why).
 Result<Stored> DecodeRle(const Context& c, DcmElement& pixel, const RadiographHeader& h) {
-  auto& pd = static_cast<DcmPixelData&>(pixel);
-  E_TransferSyntax xfer = EXS_Unknown;
-  const DcmRepresentationParameter* param = nullptr;
-  pd.getOriginalRepresentationKey(xfer, param);
-  DcmPixelSequence* seq = nullptr;
-  if (pd.getEncapsulatedRepresentation(xfer, param, seq).bad() || seq == nullptr) {
-    return Fail(c, ErrorKind::kMalformed, DCM_PixelData, "RLE pixel data is not encapsulated");
-  }
-  Result<std::vector<uint8_t>> bytes = FirstFrameBytes(c, *seq, h);
+  Result<std::vector<uint8_t>> bytes = EncapsulatedFirstFrame(c, pixel, h, "RLE");
   if (!bytes) return bytes.error();
   Result<std::vector<uint8_t>> frame =
       DecodeRleFrame(bytes->data(), bytes->size(), h.rows, h.columns, h.bits_allocated / 8);
@@ -322,6 +343,10 @@ Status DecodePixels(const Context& c, DcmDataset& ds, Radiograph& r) {
     return Fail(c, ErrorKind::kMalformed, DCM_PixelData, "no pixel data in the data set");
   }
   DcmXfer xfer(ds.getOriginalXfer());
+  bool own_decoder = IsJpeg2000(h.transfer_syntax_uid) || h.transfer_syntax_uid == kRleUid;
+  if (xfer.isEncapsulated() && !own_decoder) {
+    if (Status s = CheckJpegFrameSize(c, *pixel, h); !s) return s;
+  }
   Result<Stored> stored = IsJpeg2000(h.transfer_syntax_uid) ? DecodeJpeg2000(c, *pixel, h, r.notes)
                           : h.transfer_syntax_uid == kRleUid
                               ? DecodeRle(c, *pixel, h)

@@ -1,7 +1,8 @@
 // Every file of the broken-file corpus (testdata/broken/, made by scripts/make-broken-corpus.sh)
 // and every kept fuzzing finding (testdata/fuzz-regressions/) must give a clear error naming
 // the file, in bounded time and memory. Each file is read in a child process so that a crash,
-// a hang or a runaway allocation fails this test instead of the whole suite.
+// a hang or a runaway allocation fails this test instead of the whole suite. Findings of the
+// whole-measurement target (fuzz_measure-*) are replayed through the Measurer, as fuzzed.
 #include <doctest/doctest.h>
 
 #include <sys/resource.h>
@@ -14,6 +15,7 @@
 #include <vector>
 
 #include "beamtrim/dicom.h"
+#include "beamtrim/measure.h"
 
 namespace fs = std::filesystem;
 
@@ -63,6 +65,34 @@ ChildOutcome ReadInChild(const fs::path& file) {
   return outcome;
 }
 
+// The per-image pipeline as fuzz/fuzz_measure.cpp drives it: a record always, and a reason
+// whenever the record is not ok (a skipped image's reason need not repeat the file name).
+ChildOutcome MeasureInChild(const fs::path& file) {
+  pid_t pid = fork();
+  if (pid == 0) {
+    alarm(kSecondsPerFile);
+    beamtrim::MeasureOptions options;
+    options.read.max_pixels = 1'000'000;  // as in fuzz/fuzz_measure.cpp
+    auto measurer = beamtrim::Measurer::Create(options);
+    if (!measurer) _exit(kChildErrorWithoutFile);
+    beamtrim::ImageRecord record = measurer->MeasureFile(file);
+    if (record.status == beamtrim::RecordStatus::kOk) _exit(kChildSaysOk);
+    _exit(record.reason.empty() ? kChildErrorWithoutFile : kChildSaysError);
+  }
+  ChildOutcome outcome;
+  int status = 0;
+  struct rusage usage {};
+  wait4(pid, &status, 0, &usage);
+  if (WIFEXITED(status)) outcome.exit_code = WEXITSTATUS(status);
+  if (WIFSIGNALED(status)) outcome.signal = WTERMSIG(status);
+  outcome.max_rss_kib = usage.ru_maxrss;
+  return outcome;
+}
+
+bool FromMeasureTarget(const fs::path& file) {
+  return file.filename().string().rfind("fuzz_measure-", 0) == 0;
+}
+
 }  // namespace
 
 TEST_CASE("EveryBrokenCorpusFileGivesAClearErrorInBoundedTimeAndMemory") {
@@ -81,7 +111,7 @@ TEST_CASE("FuzzingFindingsStayFixed") {
   // A kept finding may be readable once fixed; it must neither crash nor hang nor say nothing.
   for (const fs::path& file : CorpusFiles("fuzz-regressions")) {
     CAPTURE(file.filename().string());
-    ChildOutcome outcome = ReadInChild(file);
+    ChildOutcome outcome = FromMeasureTarget(file) ? MeasureInChild(file) : ReadInChild(file);
     CHECK(outcome.signal == 0);
     CHECK((outcome.exit_code == kChildSaysError || outcome.exit_code == kChildSaysOk));
     CHECK(outcome.max_rss_kib < kMaxResidentKiB);

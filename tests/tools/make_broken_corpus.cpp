@@ -224,6 +224,14 @@ int main(int argc, char** argv) {
   }
   b = Bytes(plain.begin(), plain.begin() + pix);
   c.Add("no-pixel-data", b);
+  if (ts != std::string::npos) {
+    // RLE Lossless (PS3.5 A.4.2, UID 1.2.840.10008.1.2.5) declared, but the pixel data kept
+    // native with a defined length, as PS3.5 A.4 forbids for encapsulated syntaxes. Both UIDs
+    // have 19 characters, so the element keeps its length.
+    b = plain;
+    std::memcpy(b.data() + ts + 8, "1.2.840.10008.1.2.5", 19);
+    c.Add("rle-syntax-native-pixel-data", b);
+  }
 
   // Compressed streams cut or damaged.
   for (auto [syntax, stem] : {std::pair{TransferSyntax::kRle, "rle"},
@@ -244,6 +252,14 @@ int main(int argc, char** argv) {
       for (size_t k = start; k < std::min(start + 48, damaged.size()); ++k) damaged[k] ^= 0x5A;
       c.Add(std::string(stem) + "-fragment-header-damaged", damaged);
     }
+  }
+  // Rows doubled over an intact JPEG lossless / JPEG-LS frame (a fuzzing finding): the
+  // frame header (ITU-T T.81 B.2.2, T.87 C.2.2) still says 64 lines.
+  for (auto [syntax, stem] : {std::pair{TransferSyntax::kJpegLossless, "jpeg-lossless"},
+                              std::pair{TransferSyntax::kJpegLsLossless, "jpegls"}}) {
+    Bytes lying = MakeValid(scratch, syntax);
+    SetUs(lying, 0x0028, 0x0010, 128);
+    c.Add(std::string(stem) + "-rows-over-frame", lying);
   }
   // A JPEG 2000 stream with a bad SIZ marker: the first fragment's codestream starts FF 4F FF 51.
   Bytes j2k = MakeValid(scratch, TransferSyntax::kJpeg2000Lossless);
