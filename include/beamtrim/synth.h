@@ -171,6 +171,9 @@ struct SynthImage {
   double field_area_unclipped_mm2 = 0.0;  // whole beam at the detector plane (for KAP)
   double air_kerma_detector_mgy = 0.0;    // free-in-air kerma at the detector, central ray
   std::array<double, 2> penumbra_mm{};    // P = f (SID - d) / d, left/right pair, top/bottom
+  // The part of the image not blanked electronically (the whole image when nothing is):
+  // a detector can only see the field there.
+  Polygon unmasked_px;
 };
 
 // Draws a scenario; the same (seed, index, options) always gives the same scenario.

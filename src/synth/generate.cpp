@@ -178,6 +178,10 @@ SynthImage Generate(const SynthScenario& sc) {
   img.header.deviation_index =
       std::round(100.0 * 10.0 * std::log10(std::max(ei, 1e-6) / sc.target_exposure_index)) / 100.0;
   img.truth = ComputeTruth(sc);
+  {
+    const auto [x0, y0, x1, y1] = UnmaskedRectPx(sc, w);
+    img.unmasked_px = RectPolygon(x0, y0, x1, y1);
+  }
   if (img.truth.dose) {
     img.truth.dose->exposure_index = img.header.exposure_index;
     img.truth.dose->deviation_index = img.header.deviation_index;

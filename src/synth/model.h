@@ -40,6 +40,8 @@ struct PixelWindow {
   int x0 = 0, y0 = 0, w = 0, h = 0;  // image = receptor[x0, x0+w) x [y0, y0+h)
 };
 PixelWindow WindowOf(const SynthScenario& sc);
+// The part of the kept image not blanked electronically: [x0, y0, x1, y1] in image pixels.
+std::array<double, 4> UnmaskedRectPx(const SynthScenario& sc, const PixelWindow& w);
 
 // Detector mm -> image pixel coordinates (continuous, (0,0) top-left corner of the image).
 inline Point2d MmToPx(const SynthScenario& sc, const PixelWindow& w, Point2d mm) {

@@ -115,12 +115,8 @@ FieldMeasurement FieldTruth(const SynthScenario& sc, const FieldGeometry& g) {
   f.confidence = 1.0;
   f.double_exposure = sc.double_exposure;
   // The unmasked part of the image, in image pixels.
-  auto cut = [&](const SynthSideCut& c) { return c.active ? c.inset_mm / p : 0.0; };
   const PixelWindow& w = g.window;
-  double bx0 = std::max(0.0, cut(sc.blank[0]) - w.x0);
-  double bx1 = std::min<double>(w.w, w.receptor_w - cut(sc.blank[1]) - w.x0);
-  double by0 = std::max(0.0, cut(sc.blank[2]) - w.y0);
-  double by1 = std::min<double>(w.h, w.receptor_h - cut(sc.blank[3]) - w.y0);
+  const auto [bx0, by0, bx1, by1] = UnmaskedRectPx(sc, w);
   for (int i = 0; i < 4; ++i) f.blanked = f.blanked || sc.blank[i].active;
   f.cropped = w.x0 > 0 || w.y0 > 0 || w.w < w.receptor_w || w.h < w.receptor_h;
   const double min_len = 2.0 / p;  // a shadow shorter than 2 mm does not count as visible
