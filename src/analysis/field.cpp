@@ -118,7 +118,7 @@ double SideAngle(Side s, const Line& l) {
 double SideConfidence(const SideEvidence& e, double range) {
   const double rel = e.step / std::max(range, 1e-9);
   const double margin = std::min({(e.support - 0.6) / 0.4, (0.1 - e.bright) / 0.1,
-                                  (0.12 - e.texture) / 0.12, (0.35 - e.flatness) / 0.35,
+                                  (0.12 - e.texture) / 0.12, (kMaxFallOff - e.flatness) / kMaxFallOff,
                                   (rel - 0.08) / 0.12, 1.0});
   return std::clamp(0.5 + 0.5 * margin, 0.0, 1.0);
 }
@@ -170,6 +170,28 @@ bool EndsAtMask(const Polygon& poly, const Line& outward, const WorkingImage& wk
     }
   }
   return probes > 0 && mask_hits * 2 > probes;
+}
+
+// With one blade or two adjacent ones visible, the others lie beyond the receptor: the beam reaches past
+// the image on those sides, so the field is large. A "field" of one or two lines that covers
+// only a small part of the image is the outline of the patient seen from the direct beam (a
+// thin strip of direct exposure beside the body), not collimation; the image is then open.
+void DropImplausibleCorner(const Polygon& base, std::array<std::optional<Line>, 4>* coarse) {
+  int visible = 0;
+  Polygon field = base;
+  for (const auto& l : *coarse) {
+    if (!l) continue;
+    ++visible;
+    field = ClipHalfPlane(field, *l);
+  }
+  if (visible == 0 || visible > 2) return;
+  // Two parallel blades make a band across the whole image, which may well be narrow.
+  const bool band = ((*coarse)[0] && (*coarse)[1]) || ((*coarse)[2] && (*coarse)[3]);
+  if (band) return;
+  const double share = field.size() >= 3 ? Area(field) / std::max(1.0, Area(base)) : 0.0;
+  if (share < 0.25) {
+    for (auto& l : *coarse) l.reset();
+  }
 }
 
 }  // namespace
@@ -225,12 +247,16 @@ FieldMeasurement DetectField(const Image& image, const FieldContext& ctx,
     if (r.score > best.score) { best = r; best_frame = std::move(f); }
   }
 
+  const double min_band_px = prep.working_mm > 0 ? 15.0 / prep.working_mm : 6.0;
+  const bool split = SplitAtBlockedBand(best_frame, range, depth_px, min_band_px, &best);
+
   Polygon base = BaseRegion(image, wk);
   std::array<std::optional<Line>, 4> coarse, refined;
   for (Side s : kAllSides) {
     const auto& ev = best.sides[static_cast<int>(s)];
     if (ev) coarse[static_cast<int>(s)] = FrameSideLine(best_frame, s, ev->position, wk.factor);
   }
+  if (!blank.blanked) DropImplausibleCorner(base, &coarse);
   // Sub-pixel refinement of each blade edge between its neighbours.
   for (Side s : kAllSides) {
     const int i = static_cast<int>(s);
@@ -333,7 +359,11 @@ FieldMeasurement DetectField(const Image& image, const FieldContext& ctx,
   if (m.cropped) m.notes.push_back("image smaller than the receptor: cropped after exposure");
 
   // Second exposure on the plate.
-  if (opt.check_double_exposure && !m.open) {
+  if (split) {
+    m.double_exposure = true;
+    m.notes.push_back("two exposed fields separated by a blocked band: possible double exposure; "
+                      "the larger one is measured");
+  } else if (opt.check_double_exposure && !m.open) {
     std::vector<double> outs, ins;
     for (const auto& ev : best.sides) {
       if (ev) { outs.push_back(ev->outside); ins.push_back(ev->inside); }

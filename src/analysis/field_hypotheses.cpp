@@ -3,6 +3,8 @@
 // tested over the span left open by the perpendicular pair.
 #include <algorithm>
 #include <cmath>
+#include <limits>
+#include <vector>
 
 #include "analysis/field_internal.h"
 
@@ -75,7 +77,8 @@ Rectangle BestRectangle(const Frame& frame, double range, double depth_px) {
       std::optional<SideEvidence> best;
       for (int p : SideCandidates(frame, s, span, 6)) {
         if (!Compatible(r, s, p)) continue;
-        SideEvidence ev = EvaluateSide(frame, s, p, span, range, depth_px, bounded);
+        const Span tested = bounded ? span : StepSpan(frame, s, p, span);
+        SideEvidence ev = EvaluateSide(frame, s, p, tested, range, depth_px, bounded);
         if (ev.blade && (!best || ev.score > best->score)) best = ev;
       }
       auto& slot = r.sides[static_cast<int>(s)];
@@ -114,6 +117,104 @@ Rectangle BestRectangle(const Frame& frame, double range, double depth_px) {
   r.score = 0.0;
   for (const auto& s : r.sides) r.score += s ? s->score : 0.0;
   return r;
+}
+
+namespace {
+
+struct Band {
+  int lo = 0, hi = 0;  // [lo, hi) in frame pixels across the band
+};
+
+// Widest run of frame columns (vertical = true) or rows whose pixels inside [a_lo, a_hi)
+// along them are at the blocked level almost everywhere.
+std::optional<Band> WidestBlockedBand(const Frame& f, bool vertical, int c_lo, int c_hi, int a_lo,
+                                      int a_hi, double blocked_below) {
+  std::optional<Band> best;
+  int run = -1;
+  for (int c = c_lo; c <= c_hi; ++c) {
+    bool blocked = false;
+    if (c < c_hi) {
+      int n = 0, dark = 0;
+      for (int a = a_lo; a < a_hi; ++a) {
+        const int row = vertical ? a : c, col = vertical ? c : a;
+        if (row < 0 || col < 0 || row >= f.value.rows || col >= f.value.cols || !f.valid(row, col)) continue;
+        ++n;
+        dark += f.value(row, col) < blocked_below ? 1 : 0;
+      }
+      blocked = n >= 3 && dark >= 0.9 * n;
+    }
+    if (blocked && run < 0) run = c;
+    if (!blocked && run >= 0) {
+      if (!best || c - run > best->hi - best->lo) best = Band{run, c};
+      run = -1;
+    }
+  }
+  return best;
+}
+
+double BandMedian(const Frame& f, bool vertical, Band band, int a_lo, int a_hi) {
+  std::vector<double> v;
+  for (int c = band.lo; c < band.hi; ++c) {
+    for (int a = a_lo; a < a_hi; ++a) {
+      const int row = vertical ? a : c, col = vertical ? c : a;
+      if (row < 0 || col < 0 || row >= f.value.rows || col >= f.value.cols || !f.valid(row, col)) continue;
+      v.push_back(f.value(row, col));
+    }
+  }
+  if (v.empty()) return std::numeric_limits<double>::infinity();
+  std::nth_element(v.begin(), v.begin() + v.size() / 2, v.end());
+  return v[v.size() / 2];
+}
+
+}  // namespace
+
+bool SplitAtBlockedBand(const Frame& frame, double range, double depth_px, double min_band_px,
+                        Rectangle* rect) {
+  std::vector<double> outs, ins;
+  for (const auto& s : rect->sides) {
+    if (s) { outs.push_back(s->outside); ins.push_back(s->inside); }
+  }
+  if (outs.empty()) return false;
+  std::sort(ins.begin(), ins.end());
+  const double blocked = *std::max_element(outs.begin(), outs.end());
+  const double open = ins[ins.size() / 2];
+  std::sort(outs.begin(), outs.end());
+  const double typical_outside = outs[outs.size() / 2];
+  if (!(open > blocked)) return false;
+  const double below = blocked + 0.3 * (open - blocked);
+  auto pos = [&](Side s, int fallback) {
+    const auto& e = rect->sides[static_cast<int>(s)];
+    return e ? static_cast<int>(e->position) : fallback;
+  };
+  const int u_lo = pos(Side::kLeft, 0), u_hi = pos(Side::kRight, frame.value.cols);
+  const int v_lo = pos(Side::kTop, 0), v_hi = pos(Side::kBottom, frame.value.rows);
+  for (bool vertical : {true, false}) {
+    const int c_lo = vertical ? u_lo : v_lo, c_hi = vertical ? u_hi : v_hi;
+    const int a_lo = (vertical ? v_lo : u_lo) + 2, a_hi = (vertical ? v_hi : u_hi) - 2;
+    auto band = WidestBlockedBand(frame, vertical, c_lo + 2, c_hi - 2, a_lo, a_hi, below);
+    if (!band || band->hi - band->lo < min_band_px) continue;
+    const int first = band->lo - c_lo, second = c_hi - band->hi;
+    if (std::min(first, second) < 0.15 * (c_hi - c_lo)) continue;
+    // Keep the larger part; its new side lies at the band.
+    const bool keep_first = first >= second;
+    const Side cut = vertical ? (keep_first ? Side::kRight : Side::kLeft)
+                              : (keep_first ? Side::kBottom : Side::kTop);
+    const int position = keep_first ? band->lo : band->hi;
+    Span span{a_lo - 2, a_hi + 2};
+    SideEvidence ev = EvaluateSide(frame, cut, position, span, range, depth_px, true);
+    if (!(ev.step > 0.0) || ev.support < 0.6) continue;
+    // Between two exposures lies the same blocked plateau as beyond the blades, bounded by
+    // blade steps as strong as theirs; a spine, a long bone or a shield along the field is
+    // brighter than that plateau or bounded by weaker steps.
+    if (ev.step < 0.6 * (open - typical_outside)) continue;
+    if (BandMedian(frame, vertical, *band, a_lo, a_hi) > typical_outside + 0.25 * (open - typical_outside)) continue;
+    ev.blade = true;  // the half-plane beyond holds the other exposure, by construction
+    ev.why_not.clear();
+    rect->sides[static_cast<int>(cut)] = ev;
+    rect->split = true;
+    return true;
+  }
+  return false;
 }
 
 Line FrameSideLine(const Frame& frame, Side side, double position, int factor) {

@@ -95,6 +95,11 @@ struct SideEvidence {
   std::string why_not;     // first failed test
 };
 
+// Largest fall of the blocked level from the edge to 40 mm beyond it, relative to the step.
+// Off-focus radiation through the aperture leaves a halo that slopes away from the edge for
+// several centimetres; a soft-tissue outline keeps falling further still.
+inline constexpr double kMaxFallOff = 0.6;
+
 // Span of the perpendicular coordinate over which a side is tested: [lo, hi).
 struct Span {
   int lo = 0;
@@ -103,6 +108,11 @@ struct Span {
 
 // Boundary positions with a polarity-consistent step, strongest first (at most `count`).
 std::vector<int> SideCandidates(const Frame& frame, Side side, Span span, int count);
+// The along-edge run over which a boundary shows a clear step (at least half of its strong
+// step, gaps of a few pixels bridged): before the perpendicular blades are known, a small
+// field's side covers only a short part of the image, and testing it over the whole image
+// extent would dilute it below every threshold.
+Span StepSpan(const Frame& frame, Side side, int position, Span span);
 // `bounded`: the span is set by the perpendicular sides found so far, so the step must run
 // along most of it.
 SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span,
@@ -114,9 +124,20 @@ struct Rectangle {
   double angle_deg = 0.0;
   std::array<std::optional<SideEvidence>, 4> sides;  // nullopt: beyond the image
   double score = 0.0;
+  // The rectangle spanned two exposures separated by a blocked band and was cut down to the
+  // larger one (see SplitAtBlockedBand).
+  bool split = false;
 };
 // Best rectangle at one angle by coordinate ascent over the four sides.
 Rectangle BestRectangle(const Frame& frame, double range, double depth_px);
+
+// Two exposures side by side on one plate (computed radiography) make a rectangle whose
+// outer blades belong to different fields, with a blocked band right across it. Such a band
+// (at the blocked level over at least 90 % of the field's extent, at least `min_band_px`
+// wide) cannot lie inside one exposed field; the rectangle is cut down to the larger part
+// and marked split. Returns whether it was.
+bool SplitAtBlockedBand(const Frame& frame, double range, double depth_px, double min_band_px,
+                        Rectangle* rect);
 
 // Line (full-resolution pixel coordinates) of a side of a frame at a boundary position, with
 // the normal pointing out of the field.
@@ -128,6 +149,7 @@ Line FrameSideLine(const Frame& frame, Side side, double position, int factor);
 // inside, in the chosen domain.
 struct EdgeCrossing {
   double offset = 0.0;     // position of the edge from the profile centre, px (+ = inward)
+  double span_centre = 0.0;  // centre of the 10-90 % span, same convention
   double low = 0.0;        // blocked level
   double high = 0.0;       // open level
   double penumbra = 0.0;   // 10-90 % width, px

@@ -166,6 +166,42 @@ std::vector<int> SideCandidates(const Frame& frame, Side side, Span span, int co
   return peaks;
 }
 
+Span StepSpan(const Frame& frame, Side side, int position, Span span) {
+  SideView view{frame, side, position};
+  const int gap = 2, band = 4;
+  const int lo = std::max(0, span.lo), hi = std::min(span.hi, view.along_size());
+  std::vector<double> d(std::max(0, hi - lo), 0.0);
+  std::vector<double> present;
+  for (int t = lo; t < hi; ++t) {
+    double so = 0.0, si = 0.0;
+    int no = 0, ni = 0;
+    for (int k = gap; k < gap + band; ++k) {
+      float v;
+      if (view.Get(frame.value, k, t, true, &v)) { so += v; ++no; }
+      if (view.Get(frame.value, k, t, false, &v)) { si += v; ++ni; }
+    }
+    if (no == 0 || ni == 0) continue;
+    d[t - lo] = si / ni - so / no;
+    present.push_back(d[t - lo]);
+  }
+  if (present.size() < 3) return span;
+  std::sort(present.begin(), present.end());
+  const double strong = present[(present.size() * 9) / 10];
+  if (strong <= 0.0) return span;
+  // Longest run of a step at least half the strong one, bridging gaps of a few pixels (a
+  // marker or an implant on the edge).
+  const int bridge = 3;
+  int best_lo = 0, best_hi = 0, run_lo = -1, last = -1000;
+  for (int i = 0; i < static_cast<int>(d.size()); ++i) {
+    if (d[i] < 0.5 * strong) continue;
+    if (i - last > bridge + 1) run_lo = i;
+    last = i;
+    if (last + 1 - run_lo > best_hi - best_lo) { best_lo = run_lo; best_hi = last + 1; }
+  }
+  if (best_hi <= best_lo) return span;
+  return {lo + best_lo, lo + best_hi};
+}
+
 SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span, double range,
                           double depth_px, bool bounded) {
   // A blade edge runs at least a centimetre or so: shorter straight steps are objects.
@@ -225,7 +261,14 @@ SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span
     supported += diffs[i] > 0.5 * ev.step ? 1 : 0;
   }
   ev.support = open ? static_cast<double>(supported) / open : 0.0;
-  ev.coverage = static_cast<double>(supported) / diffs.size();
+  // Coverage: where the inside is dense anatomy the step is smaller than next to the direct
+  // beam but still plain; what a line at a wrong angle lacks is a blocked outside with any
+  // clear rise into the field.
+  int covered = 0;
+  for (size_t i = 0; i < diffs.size(); ++i) {
+    covered += (outs[i] < ev.outside + 0.3 * ev.step && diffs[i] > 0.15 * ev.step) ? 1 : 0;
+  }
+  ev.coverage = static_cast<double>(covered) / diffs.size();
   if (supported < min_length_px) {
     ev.why_not = "edge too short";
     return ev;
@@ -271,7 +314,7 @@ SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span
   else if (bounded && ev.coverage < 0.5) ev.why_not = "step along less than half of the field side";
   else if (ev.bright > 0.1) ev.why_not = "bright structures beyond the edge";
   else if (ev.texture > 0.12) ev.why_not = "structured (anatomy) beyond the edge";
-  else if (ev.flatness > 0.35) ev.why_not = "no flat blocked plateau beyond the edge";
+  else if (ev.flatness > kMaxFallOff) ev.why_not = "no flat blocked plateau beyond the edge";
   ev.blade = ev.why_not.empty();
   return ev;
 }

@@ -90,6 +90,7 @@ EdgeCrossing LocateCrossing(const std::vector<double>& p, double step, double fr
   auto c90 = NearestCrossing(p, steepest, low + 0.9 * (high - low));
   if (!c || !c10 || !c90) return out;
   out.offset = (*c - 0.5 * (n - 1)) * step;
+  out.span_centre = (0.5 * (*c10 + *c90) - 0.5 * (n - 1)) * step;
   out.low = low;
   out.high = high;
   out.penumbra = std::max(0.0, *c90 - *c10) * step;
@@ -202,7 +203,10 @@ ProfileSet SampleProfiles(const Image& image, const Line& line, Point2d a, Point
       e = LocateCrossing(prof, step, 0.5);
     }
     if (!e.ok) continue;
-    set.points.push_back({cx - e.offset * nx, cy - e.offset * ny});
+    // On a processed (log-like) image the 50 % display level lies towards the blocked side
+    // of the linear 50 % point; the centre of the 10-90 % span lies much closer to it.
+    const double offset = (!linear && def == EdgeDefinition::kHalfTransition) ? e.span_centre : e.offset;
+    set.points.push_back({cx - offset * nx, cy - offset * ny});
     set.lows.push_back(e.low);
     set.highs.push_back(e.high);
     set.penumbras.push_back(e.penumbra);
