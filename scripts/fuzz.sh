@@ -54,13 +54,14 @@ for t in "${TARGETS[@]}"; do
     started=$SECONDS
     set +e
     ASAN_OPTIONS=detect_leaks=0:allocator_may_return_null=1 \
-      $BUILD/fuzz/$t "$corpus" $SEEDS -max_total_time=$left -timeout="$TIMEOUT" -report_slow_units="$SLOW" \
-      -rss_limit_mb=2560 -max_len=262144 -artifact_prefix=fuzz/artifacts/$t- \
+      $BUILD/fuzz/$t "$corpus" $SEEDS -max_total_time=$left -timeout="$TIMEOUT" \
+      -report_slow_units="$SLOW" -rss_limit_mb=2560 -max_len=262144 -artifact_prefix=fuzz/artifacts/$t- \
       -print_final_stats=1 >"$log" 2>&1
     rc=$?
     set -e
     # Final stats when libFuzzer printed them, else the last progress line's count.
-    execs=$(grep -Eo 'stat::number_of_executed_units: *[0-9]+' "$log" | grep -Eo '[0-9]+$' | tail -1 || true)
+    execs=$(grep -Eo 'stat::number_of_executed_units: *[0-9]+' "$log" | grep -Eo '[0-9]+$' |
+      tail -1 || true)
     [[ -n $execs ]] || execs=$(grep -Eo '^#[0-9]+' "$log" | tail -1 | tr -d '#' || true)
     echo "$(date -u +%FT%TZ) $t seconds=$((SECONDS - started)) executions=${execs:-0} exit=$rc" |
       tee -a fuzz/runs.log

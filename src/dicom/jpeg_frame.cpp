@@ -16,7 +16,9 @@ bool StandsAlone(uint8_t marker) {
   return marker == 0xD8 || marker == 0xD9 || (marker >= 0xD0 && marker <= 0xD7) || marker == 0x01;
 }
 
-unsigned Be16(const uint8_t* p) { return (unsigned{p[0]} << 8) | p[1]; }
+unsigned Be16(const uint8_t* p) {
+  return (unsigned{p[0]} << 8) | p[1];
+}
 
 }  // namespace
 
@@ -33,7 +35,7 @@ std::optional<JpegFrameSize> ReadJpegFrameSize(const uint8_t* data, size_t size)
     at += 2;
     if (StandsAlone(marker)) continue;
     if (marker == 0xDA || at + 2 > size) return std::nullopt;  // a scan before any frame header
-    unsigned length = Be16(data + at);  // includes its own two bytes
+    unsigned length = Be16(data + at);                         // includes its own two bytes
     if (length < 2 || at + length > size) return std::nullopt;
     if (IsFrameHeader(marker)) {
       // Lf(2) P(1) Y(2) X(2) Nf(1)...

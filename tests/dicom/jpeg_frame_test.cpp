@@ -22,6 +22,7 @@ using Bytes = std::vector<uint8_t>;
 
 // SOI, an APP0 segment, a frame header with marker `sof` for X x Y, then SOS (T.81 B.2).
 Bytes Stream(uint8_t sof, int columns, int lines) {
+  // clang-format off
   Bytes b = {0xFF, 0xD8,                                            // SOI
              0xFF, 0xE0, 0x00, 0x06, 'a', 'b', 'c', 'd',            // APP0, Lp = 6
              0xFF, sof,  0x00, 0x0B, 0x0C,                          // SOFn, Lf = 11, P = 12
@@ -29,6 +30,7 @@ Bytes Stream(uint8_t sof, int columns, int lines) {
              static_cast<uint8_t>(columns >> 8), static_cast<uint8_t>(columns),
              0x01, 0x01, 0x11, 0x00,                                // Nf = 1: C1 H1V1 Tq0
              0xFF, 0xDA, 0x00, 0x08, 0x01, 0x01, 0x00, 0x00, 0x3F, 0x00};  // SOS
+  // clang-format on
   return b;
 }
 
@@ -97,15 +99,17 @@ TEST_CASE("FramesFromTheJpegEncodersGiveTheImageSize") {
     TransferSyntax syntax;
     int bits_allocated, bits_stored;
   };
-  for (Case c : {Case{TransferSyntax::kJpegBaseline, 8, 8}, Case{TransferSyntax::kJpegExtended, 16, 12},
-                 Case{TransferSyntax::kJpegLossless, 16, 12},
-                 Case{TransferSyntax::kJpegLsLossless, 16, 12}}) {
+  for (Case c :
+       {Case{TransferSyntax::kJpegBaseline, 8, 8}, Case{TransferSyntax::kJpegExtended, 16, 12},
+        Case{TransferSyntax::kJpegLossless, 16, 12},
+        Case{TransferSyntax::kJpegLsLossless, 16, 12}}) {
     CAPTURE(static_cast<int>(c.syntax));
     StoredPixels p = MakePixels(37, 23, c.bits_stored, false);
     WriteOptions options;
     options.syntax = c.syntax;
     auto file = dir / "f.dcm";
-    REQUIRE(WriteRadiograph(MakeHeader(p, c.bits_allocated, c.bits_stored, false), p, file, options).ok());
+    REQUIRE(WriteRadiograph(MakeHeader(p, c.bits_allocated, c.bits_stored, false), p, file, options)
+                .ok());
     Bytes stream = FirstFragment(file);
     auto frame = ReadJpegFrameSize(stream.data(), stream.size());
     REQUIRE(frame.has_value());

@@ -40,11 +40,14 @@ constexpr int kChildCannotDropPrivileges = 125;
 
 bool ProgramBuilt() {
   if (fs::exists(BEAMTRIM_BINARY)) return true;
-  MESSAGE("beamtrim program not built (" << BEAMTRIM_BINARY << "): build beamtrim_cli to run this case");
+  MESSAGE("beamtrim program not built (" << BEAMTRIM_BINARY
+                                         << "): build beamtrim_cli to run this case");
   return false;
 }
 
-std::string Quote(const fs::path& p) { return "'" + p.string() + "'"; }
+std::string Quote(const fs::path& p) {
+  return "'" + p.string() + "'";
+}
 
 int Run(const std::string& command) {
   int status = std::system(command.c_str());
@@ -63,9 +66,10 @@ std::string ReadAll(const fs::path& file) {
 }
 
 // The arguments of one scan; every run of a case shares the key so hashes agree.
-std::vector<std::string> ScanArgs(const fs::path& input, const fs::path& store, const fs::path& key) {
-  return {"scan", input.string(), "--store", store.string(), "--key-file", key.string(),
-          "--threads", "1"};
+std::vector<std::string> ScanArgs(const fs::path& input, const fs::path& store,
+                                  const fs::path& key) {
+  return {"scan",       input.string(), "--store",   store.string(),
+          "--key-file", key.string(),   "--threads", "1"};
 }
 
 // Starts the program with stderr to `log`. `as_user` > 0 runs it under that user id (and the
@@ -79,8 +83,8 @@ pid_t Start(const std::vector<std::string>& args, const fs::path& log, uid_t as_
     if (err < 0 || null < 0) ::_exit(127);
     ::dup2(err, STDERR_FILENO);
     ::dup2(null, STDOUT_FILENO);
-    if (as_user > 0 && (::setgroups(0, nullptr) != 0 || ::setgid(as_user) != 0 ||
-                        ::setuid(as_user) != 0)) {
+    if (as_user > 0 &&
+        (::setgroups(0, nullptr) != 0 || ::setgid(as_user) != 0 || ::setuid(as_user) != 0)) {
       ::_exit(kChildCannotDropPrivileges);
     }
     std::vector<char*> argv;
@@ -212,7 +216,8 @@ TEST_CASE("ProgramStoppedBySigintOrSigtermStoresWhatItMeasuredAndResumes") {
 
     int resumed = RunScan(ScanArgs(dir / "in", store, key), log);
     CHECK(resumed == reference);
-    CHECK(Contains(ReadAll(log), "already stored by an earlier run: " + std::to_string(kept.size())));
+    CHECK(
+        Contains(ReadAll(log), "already stored by an earlier run: " + std::to_string(kept.size())));
     CHECK(Rows(store) == expected);
   }
 }
