@@ -2,8 +2,10 @@
 // through a decode-only pass (ReadRadiograph: DCMTK load + decompress) on the same synthetic
 // files, with 1 and 2 threads; peak memory (ru_maxrss) of each pass measured in a child process
 // so passes do not inherit each other's peaks. Not a test: prints figures for
-// docs/performance.md. Usage:
-//   bench_scan [--dir DIR] [--small N] [--full N] [--threads 1,2]
+// docs/performance.md. A store-write pass times Store::PutBatch alone on constructed records.
+// Usage:
+//   bench_scan [--dir DIR] [--small N] [--full N] [--threads 1,2] [--uncompressed 0|1]
+//              [--records N]
 // DIR keeps the generated images between runs (default: a folder under /tmp).
 #include <sys/resource.h>
 #include <sys/wait.h>
@@ -109,6 +111,65 @@ PassResult DecodeOnly(const std::vector<fs::path>& files, int threads) {
   });
 }
 
+// Store writes alone: `count` constructed records (synthetic, a fictional clinic) through
+// PutBatch in batches of `batch`, as the scan's writer does. Prints ms per record for the
+// first and the last tenth, so a cost that grows with the store shows.
+void StoreWrites(const fs::path& store_file, int count, size_t batch) {
+  for (const char* suffix : {"", "-wal", "-shm"}) fs::remove(store_file.string() + suffix);
+  auto store = Store::Open(store_file);
+  if (!store) {
+    std::fprintf(stderr, "%s\n", store.error().ToString().c_str());
+    return;
+  }
+  std::vector<std::pair<MeasuredImage, FileIdentity>> pending;
+  std::vector<PutOutcome> outcomes;
+  std::vector<double> seconds;  // per batch
+  auto tenth = [&](size_t first, size_t last) {
+    double total = 0;
+    for (size_t i = first; i < last; ++i) total += seconds[i];
+    return 1000.0 * total / static_cast<double>((last - first) * batch);
+  };
+  for (int i = 0; i < count; ++i) {
+    MeasuredImage m;
+    ImageRecord& r = m.record;
+    r.sop_instance_uid = "1.2.826.0.1.3680043.10.4242." + std::to_string(i);
+    r.file = "/archive/2026/" + std::to_string(i) + ".dcm";
+    r.software_version = "bench";
+    r.rows = 2800;
+    r.columns = 2300;
+    r.context.operator_name = "RT-" + std::to_string(10 + i % 25);
+    r.context.station = "ROOM " + std::to_string(1 + i % 6);
+    r.context.body_part = "CHEST";
+    r.context.view = "PA";
+    r.context.study_date = "202611" + std::to_string(10 + i % 18);
+    r.context.month = "2026-11";
+    FieldMeasurement field;
+    for (Side side : kAllSides) field.side(side).side = side;
+    r.field = field;
+    r.excess = ExcessMeasurement{};
+    r.excess->fraction_at_0mm = (i % 100) / 100.0;
+    r.verdict = Verdict{};
+    r.verdict->outcome = i % 3 ? "acceptable" : "needs review";
+    m.accession_number = "ACC" + std::to_string(i);
+    m.study_instance_uid = r.sop_instance_uid + ".1";
+    pending.emplace_back(std::move(m), FileIdentity{r.file, 1000 + i, i});
+    if (pending.size() == batch || i + 1 == count) {
+      auto start = std::chrono::steady_clock::now();
+      if (Status s = (*store)->PutBatch(pending, &outcomes); !s) {
+        std::fprintf(stderr, "%s\n", s.error().ToString().c_str());
+        return;
+      }
+      seconds.push_back(
+          std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count());
+      pending.clear();
+    }
+  }
+  size_t n = seconds.size(), t = std::max<size_t>(1, n / 10);
+  std::printf("\nstore writes: %d records, batches of %zu: %.3f ms per record overall, %.3f in "
+              "the first tenth, %.3f in the last tenth\n",
+              count, batch, tenth(0, n), tenth(0, t), tenth(n - t, n));
+}
+
 PassResult FullScan(const std::vector<fs::path>& files, int threads, const fs::path& store_file) {
   fs::remove(store_file);
   fs::remove(store_file.string() + "-wal");
@@ -160,12 +221,16 @@ int main(int argc, char** argv) {
   fs::path dir = fs::temp_directory_path() / "beamtrim-bench-scan";
   int small = 2000, full = 200;
   std::vector<int> threads = {1, 2};
+  bool uncompressed = true;
+  int records = 0;
   for (int i = 1; i + 1 < argc; i += 2) {
     std::string flag = argv[i];
     if (flag == "--dir") dir = argv[i + 1];
     if (flag == "--small") small = std::atoi(argv[i + 1]);
     if (flag == "--full") full = std::atoi(argv[i + 1]);
     if (flag == "--threads") threads = ParseThreads(argv[i + 1]);
+    if (flag == "--uncompressed") uncompressed = std::atoi(argv[i + 1]) != 0;
+    if (flag == "--records") records = std::atoi(argv[i + 1]);
   }
   struct Set {
     const char* name;
@@ -182,7 +247,7 @@ int main(int argc, char** argv) {
   std::printf("| set | threads | images | decode-only img/s | scan img/s | scan / decode time "
               "| decode peak MiB | scan peak MiB | failed |\n|---|---|---|---|---|---|---|---|---|\n");
   for (const Set& set : sets) {
-    if (set.count <= 0) continue;
+    if (set.count <= 0 || (set.syntax && !uncompressed)) continue;
     fs::path sub = dir / (std::string(set.name).substr(0, set.name[0] == 's' ? 5 : 9) +
                           (set.syntax ? "-explicit" : "-mix"));
     EnsureBatch(sub, set.count, set.pixel_mm, set.syntax);
@@ -195,7 +260,9 @@ int main(int argc, char** argv) {
     }
   }
   // Memory must not grow with the number of images: scan a quarter, then all, of the small set.
-  std::vector<fs::path> files = DicomFiles(dir / "small-mix");
+  std::vector<fs::path> files =
+      fs::exists(dir / "small-mix") ? DicomFiles(dir / "small-mix") : std::vector<fs::path>{};
+  files.resize(std::min<size_t>(files.size(), std::max(small, 0)));
   if (!files.empty()) {
     std::vector<fs::path> quarter(files.begin(), files.begin() + files.size() / 4);
     PassResult a = FullScan(quarter, 2, dir / "bench-store.db");
@@ -204,5 +271,6 @@ int main(int argc, char** argv) {
                 static_cast<long long>(a.images), a.max_rss_kib / 1024.0,
                 static_cast<long long>(b.images), b.max_rss_kib / 1024.0);
   }
+  if (records > 0) StoreWrites(dir / "bench-writes.db", records, ScanOptions{}.batch_size);
   return 0;
 }
