@@ -39,13 +39,15 @@ std::string RoomQcTable(const std::vector<RoomQcHistory>& rooms, size_t max_chec
        "<thead><tr><th scope=\"col\" class=\"l\">Room</th><th scope=\"col\">Images</th>"
        "<th scope=\"col\">Needs review</th><th scope=\"col\">QC date</th>"
        "<th scope=\"col\">QC overall</th><th scope=\"col\">Left + right</th>"
-       "<th scope=\"col\">Top + bottom</th><th scope=\"col\">Worst edge</th></tr></thead>\n<tbody>\n";
+       "<th scope=\"col\">Top + bottom</th><th scope=\"col\">Worst "
+       "edge</th></tr></thead>\n<tbody>\n";
   for (const RoomQcHistory& room : rooms) {
     const size_t shown = std::min(room.checks.size(), max_checks);
     const size_t span = std::max<size_t>(shown, 1);
     s += "<tr><th scope=\"row\" rowspan=\"" + std::to_string(span) + "\">" + Escape(room.station) +
          "</th><td rowspan=\"" + std::to_string(span) + "\">" + Count(room.images) +
-         "</td><td rowspan=\"" + std::to_string(span) + "\">" + Pct(room.pct_needs_review) + "</td>";
+         "</td><td rowspan=\"" + std::to_string(span) + "\">" + Pct(room.pct_needs_review) +
+         "</td>";
     if (shown == 0) {
       s += "<td colspan=\"5\" class=\"l\">no QC record in the store</td></tr>\n";
       continue;

@@ -20,7 +20,8 @@ std::string AxisVerdict(const nlohmann::json& checks, const std::string& name_st
     if (!c.is_object() || !c.contains("name") || !c["name"].is_string()) continue;
     if (c["name"].get<std::string>().rfind(name_start, 0) != 0) continue;
     const bool has_value = c.contains("value_mm") && c["value_mm"].is_number();
-    if (c.contains("pass") && c["pass"].is_boolean()) return c["pass"].get<bool>() ? "pass" : "fail";
+    if (c.contains("pass") && c["pass"].is_boolean())
+      return c["pass"].get<bool>() ? "pass" : "fail";
     return has_value ? "no verdict (SID unknown)" : "not assessed";
   }
   return "not assessed";
@@ -43,7 +44,8 @@ Result<std::vector<RoomQcHistory>> JoinRoomQc(const Store& store,
     room.images = c.images;
     room.assessable = c.assessable;
     if (c.assessable > 0) {
-      room.pct_needs_review = 100.0 * static_cast<double>(c.review) / static_cast<double>(c.assessable);
+      room.pct_needs_review =
+          100.0 * static_cast<double>(c.review) / static_cast<double>(c.assessable);
     }
   }
   Status read = store.ForEachQcCheck("", to_date, [&](const QcCheckRow& row) {
@@ -67,8 +69,8 @@ QcHistoryEntry SummariseQcCheck(const QcCheckRow& row) {
   e.overall = row.overall;
   e.sid_mm = row.sid_mm;
   nlohmann::json json = nlohmann::json::parse(row.result_json, nullptr, false);
-  nlohmann::json checks = json.is_object() && json.contains("checks") ? json["checks"]
-                                                                       : nlohmann::json();
+  nlohmann::json checks =
+      json.is_object() && json.contains("checks") ? json["checks"] : nlohmann::json();
   e.width_axis = AxisVerdict(checks, "left + right");
   e.length_axis = AxisVerdict(checks, "top + bottom");
   for (Side side : kAllSides) {

@@ -7,8 +7,8 @@
 #include <fstream>
 #include <iterator>
 
-#include <nlohmann/json.hpp>
 #include <sqlite3.h>
+#include <nlohmann/json.hpp>
 
 #include "beamtrim/qc.h"
 #include "beamtrim/report.h"
@@ -146,8 +146,10 @@ TEST_CASE("QcTableIsPartOfTheStoreSchemaAtVersionThree") {
   sqlite3* db = nullptr;
   REQUIRE(sqlite3_open_v2(store.c_str(), &db, SQLITE_OPEN_READONLY, nullptr) == SQLITE_OK);
   sqlite3_stmt* stmt = nullptr;
-  REQUIRE(sqlite3_prepare_v2(db, "SELECT (SELECT description FROM schema_version WHERE version = 3), "
-                                 "(SELECT count(*) FROM qc_field_checks)", -1, &stmt, nullptr) == SQLITE_OK);
+  REQUIRE(sqlite3_prepare_v2(db,
+                             "SELECT (SELECT description FROM schema_version WHERE version = 3), "
+                             "(SELECT count(*) FROM qc_field_checks)",
+                             -1, &stmt, nullptr) == SQLITE_OK);
   REQUIRE(sqlite3_step(stmt) == SQLITE_ROW);
   std::string description = reinterpret_cast<const char*>(sqlite3_column_text(stmt, 0));
   CHECK(description.find("qc_field_checks") != std::string::npos);

@@ -53,7 +53,8 @@ TEST_CASE("NewStoreIsAtLatestSchemaInWalModeWithPrivateKey") {
   CHECK(QueryText(file, "PRAGMA user_version") == std::to_string(kStoreSchemaVersion));
   CHECK(QueryText(file, "PRAGMA journal_mode") == "wal");
   CHECK(QueryText(file, "SELECT group_concat(version) FROM schema_version") == "1,2,3");
-  CHECK(QueryText(file, "SELECT count(*) FROM sqlite_master WHERE name = 'qc_field_checks'") == "1");
+  CHECK(QueryText(file, "SELECT count(*) FROM sqlite_master WHERE name = 'qc_field_checks'") ==
+        "1");
   struct stat info {};
   REQUIRE(::stat((dir / "audit.db.key").c_str(), &info) == 0);
   CHECK((info.st_mode & 0777) == 0600);
@@ -355,12 +356,17 @@ TEST_CASE("ForEachRecordStreamsFullRecordsWithinTheRange") {
   std::vector<std::string> sops, files;
   std::vector<double> fractions;
   int64_t unreadable = 0;
-  REQUIRE(store->ForEachRecord(range, [&](const StoredRecord& r) {
-    sops.push_back(r.record.sop_instance_uid);
-    files.push_back(r.record.file);
-    fractions.push_back(*r.record.excess->fraction_at_0mm);
-    return true;
-  }, &unreadable).ok());
+  REQUIRE(store
+              ->ForEachRecord(
+                  range,
+                  [&](const StoredRecord& r) {
+                    sops.push_back(r.record.sop_instance_uid);
+                    files.push_back(r.record.file);
+                    fractions.push_back(*r.record.excess->fraction_at_0mm);
+                    return true;
+                  },
+                  &unreadable)
+              .ok());
   // Synthetic ground truth: February and March hold records 1, 2 and 3; the error row is left out.
   CHECK(sops == std::vector<std::string>{"1.2.3.80.1", "1.2.3.80.2", "1.2.3.80.3"});
   CHECK(files == std::vector<std::string>{"/r1.dcm", "/r2.dcm", "/r3.dcm"});  // path filled in
@@ -379,11 +385,16 @@ TEST_CASE("ForEachRecordStreamsFullRecordsWithinTheRange") {
 
   sqlite3* db = nullptr;
   sqlite3_open(file.c_str(), &db);
-  REQUIRE(sqlite3_exec(db, "UPDATE images SET record_json = '{not json' WHERE sop_instance_uid = "
-                           "'1.2.3.80.4'", nullptr, nullptr, nullptr) == SQLITE_OK);
+  REQUIRE(sqlite3_exec(db,
+                       "UPDATE images SET record_json = '{not json' WHERE sop_instance_uid = "
+                       "'1.2.3.80.4'",
+                       nullptr, nullptr, nullptr) == SQLITE_OK);
   sqlite3_close(db);
   count = 0;
-  REQUIRE(store->ForEachRecord({}, [&](const StoredRecord&) { return ++count > 0; }, &unreadable).ok());
+  REQUIRE(store
+              ->ForEachRecord(
+                  {}, [&](const StoredRecord&) { return ++count > 0; }, &unreadable)
+              .ok());
   CHECK(count == 4);
   CHECK(unreadable == 1);
 }
@@ -407,15 +418,19 @@ TEST_CASE("VersionTwoStoreWithAnEarlierQcTableKeepsItsQcRecords") {
     INSERT INTO qc_field_checks (station, check_date, overall, sid_mm, edge_definition, left_mm,
       software_version, result_json, stored_utc)
       VALUES ('ROOM-3', '20251020', 'pass', 1000, 'quarter-maximum', 4.5, '0.1.0', '{}', 'then');
-  )sql", nullptr, nullptr, nullptr) == SQLITE_OK);
+  )sql",
+                       nullptr, nullptr, nullptr) == SQLITE_OK);
   sqlite3_close(db);
   auto store = OpenOrFail(file);
   CHECK(store->schema_version() == 3);
   std::vector<QcCheckRow> rows;
-  REQUIRE(store->ForEachQcCheck("", "", [&](const QcCheckRow& r) {
-    rows.push_back(r);
-    return true;
-  }).ok());
+  REQUIRE(store
+              ->ForEachQcCheck("", "",
+                               [&](const QcCheckRow& r) {
+                                 rows.push_back(r);
+                                 return true;
+                               })
+              .ok());
   REQUIRE(rows.size() == 1);
   CHECK(rows[0].station == "ROOM-3");
   CHECK(rows[0].misalignment_mm[0] == 4.5);
