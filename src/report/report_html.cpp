@@ -33,7 +33,8 @@ std::string KapTileValue(const ReportFigures& f) {
 std::string FiguresTiles(const ReportFigures& f) {
   std::string s = "<ul class=\"figures\">\n";
   s += Tile(Count(f.images), "images measured");
-  s += Tile(Pct(f.PercentAssessable()), "assessable", Count(f.assessable) + " images");
+  s += Tile(Pct(f.PercentAssessable()), "assessable",
+            Count(f.assessable) + (f.assessable == 1 ? " image" : " images"));
   s += Tile(FractionPct(f.median_excess), "median excess fraction",
             "share of the field outside the anatomy");
   s += Tile(Pct(f.PercentAllBordersVisible()), "all four borders visible",
@@ -123,8 +124,10 @@ std::string RenderReportHtml(const ReportModel& m) {
   s += FiguresTiles(d);
   s += "<p>" + Pct(d.PercentNeedsReview()) + " of assessable images need review (" +
        Count(d.needs_review) + " of " + Count(d.assessable) + "); the anatomy ran into a blade "
-       "edge on " + Count(d.clipped) + " images and " + Count(d.masked_or_cropped) +
-       " images were masked or cropped after exposure.</p>\n</section>\n";
+       "edge on " + Count(d.clipped) + (d.clipped == 1 ? " image and " : " images and ") +
+       Count(d.masked_or_cropped) +
+       (d.masked_or_cropped == 1 ? " image was" : " images were") +
+       " masked or cropped after exposure.</p>\n</section>\n";
   s += "<section aria-labelledby=\"dist-h\">\n<h2 id=\"dist-h\">Distribution of the excess fraction</h2>\n"
        "<p>How much of each exposed field lay outside the anatomy box. Bars further right are "
        "images with more unnecessary exposed area.</p>\n" +

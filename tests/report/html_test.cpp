@@ -110,6 +110,22 @@ TEST_CASE("ReportHasEveryPartAndNoPatientIdentifiers") {
   CheckAccessibleBasics(html);
 }
 
+TEST_CASE("CountsInSentencesAgreeInNumber") {
+  // English grammar (one image, two images): the summary sentence and the tiles must read
+  // right for a count of one.
+  ReportModel m = testing::MakeSampleModel();
+  m.department.clipped = 1;
+  m.department.masked_or_cropped = 1;
+  m.department.assessable = 1;
+  const std::string html = RenderReportHtml(m);
+  CHECK(html.find("edge on 1 image and 1 image was masked or cropped") != std::string::npos);
+  CHECK(html.find("1 images") == std::string::npos);
+  m.department.clipped = 2;
+  m.department.masked_or_cropped = 3;
+  const std::string plural = RenderReportHtml(m);
+  CHECK(plural.find("edge on 2 images and 3 images were masked or cropped") != std::string::npos);
+}
+
 TEST_CASE("FeedbackSheetShowsPersonBesideDepartmentWithTips") {
   ReportModel m = testing::MakeSampleModel();
   REQUIRE(m.sheets.size() == 3);
