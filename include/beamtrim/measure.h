@@ -41,4 +41,9 @@ class Measurer {
 // Fills the record's identity and context from a header (no measurement).
 void FillRecordContext(const Radiograph& radiograph, ImageRecord* record);
 
+// The record of a file that could not be read: "skipped" when it is not a radiograph beamtrim
+// measures (ErrorKind::kUnsupported), "error" otherwise, with the reason (the record already
+// names the file). MeasureFile and the batch scan both use it.
+ImageRecord UnreadableRecord(const std::filesystem::path& file, const Error& error);
+
 }  // namespace beamtrim

@@ -37,6 +37,20 @@ struct SideView {
     if (low_is_outside == outside) return p - 1 - k;
     return p + k;
   }
+  // Sums of the strips [gap, gap + band) pixels outside and inside the edge at along-index t.
+  struct Strips {
+    double out_sum = 0.0, in_sum = 0.0;
+    int out_n = 0, in_n = 0;
+  };
+  Strips SumStrips(int t, int gap, int band) const {
+    Strips s;
+    for (int k = gap; k < gap + band; ++k) {
+      float v;
+      if (Get(f.value, k, t, true, &v)) { s.out_sum += v; ++s.out_n; }
+      if (Get(f.value, k, t, false, &v)) { s.in_sum += v; ++s.in_n; }
+    }
+    return s;
+  }
   bool Get(const cv::Mat1f& m, int k, int t, bool outside, float* out) const {
     const int a = Across(k, outside);
     if (a < 0 || a >= across_size() || t < 0 || t >= along_size()) return false;
@@ -173,15 +187,9 @@ Span StepSpan(const Frame& frame, Side side, int position, Span span) {
   std::vector<double> d(std::max(0, hi - lo), 0.0);
   std::vector<double> present;
   for (int t = lo; t < hi; ++t) {
-    double so = 0.0, si = 0.0;
-    int no = 0, ni = 0;
-    for (int k = gap; k < gap + band; ++k) {
-      float v;
-      if (view.Get(frame.value, k, t, true, &v)) { so += v; ++no; }
-      if (view.Get(frame.value, k, t, false, &v)) { si += v; ++ni; }
-    }
-    if (no == 0 || ni == 0) continue;
-    d[t - lo] = si / ni - so / no;
+    const SideView::Strips st = view.SumStrips(t, gap, band);
+    if (st.out_n == 0 || st.in_n == 0) continue;
+    d[t - lo] = st.in_sum / st.in_n - st.out_sum / st.out_n;
     present.push_back(d[t - lo]);
   }
   if (present.size() < 3) return span;
@@ -214,13 +222,9 @@ SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span
   const int depth = std::max(gap + band + 1, static_cast<int>(std::lround(depth_px)));
   std::vector<double> outs, ins, diffs, far;
   for (int t = std::max(0, span.lo); t < std::min(span.hi, view.along_size()); ++t) {
-    double so = 0.0, si = 0.0;
-    int no = 0, ni = 0;
-    for (int k = gap; k < gap + band; ++k) {
-      float v;
-      if (view.Get(frame.value, k, t, true, &v)) { so += v; ++no; }
-      if (view.Get(frame.value, k, t, false, &v)) { si += v; ++ni; }
-    }
+    const SideView::Strips st = view.SumStrips(t, gap, band);
+    double so = st.out_sum, si = st.in_sum;
+    int no = st.out_n, ni = st.in_n;
     // A blade shadow within a few millimetres of the image border: the strip just outside
     // the edge is all there is of the blocked plateau.
     for (int k = gap - 1; no == 0 && k >= 1; --k) {

@@ -8,9 +8,7 @@
 #include "beamtrim/version.h"
 
 namespace beamtrim {
-namespace {
-
-ImageRecord FailedRecord(const std::filesystem::path& file, const Error& error) {
+ImageRecord UnreadableRecord(const std::filesystem::path& file, const Error& error) {
   ImageRecord record;
   record.file = file.string();
   record.status =
@@ -22,8 +20,6 @@ ImageRecord FailedRecord(const std::filesystem::path& file, const Error& error) 
   record.software_version = kVersion;
   return record;
 }
-
-}  // namespace
 
 void FillRecordContext(const Radiograph& radiograph, ImageRecord* record) {
   const RadiographHeader& h = radiograph.header;
@@ -66,11 +62,11 @@ Result<Measurer> Measurer::Create(const MeasureOptions& options) {
 ImageRecord Measurer::MeasureFile(const std::filesystem::path& file) const {
   try {
     Result<Radiograph> radiograph = ReadRadiograph(file, options_.read);
-    if (!radiograph.ok()) return FailedRecord(file, radiograph.error());
+    if (!radiograph.ok()) return UnreadableRecord(file, radiograph.error());
     return MeasureRadiograph(radiograph.value());
   } catch (const std::exception& e) {
     // A bug or an exhausted resource must not stop a batch: record it against the file.
-    return FailedRecord(file, MakeError(ErrorKind::kInternal, file.string(),
+    return UnreadableRecord(file, MakeError(ErrorKind::kInternal, file.string(),
                                         std::string("internal error: ") + e.what()));
   }
 }

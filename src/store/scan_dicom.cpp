@@ -3,28 +3,12 @@
 #include <exception>
 #include <thread>
 
+#include "beamtrim/measure.h"
 #include "beamtrim/scan.h"
-#include "beamtrim/version.h"
 #include "store/scan_internal.h"
 
 namespace beamtrim {
 namespace {
-
-// The record for a file that could not be read, built from the error of the one read already
-// made. It follows Measurer::MeasureFile's policy (unsupported = skipped, anything else =
-// error, reason without the file name, which the record carries); scan_test.cpp checks that
-// the two agree on broken files, so the policy cannot drift apart unnoticed.
-ImageRecord UnreadableRecord(const std::filesystem::path& file, const Error& error) {
-  ImageRecord record;
-  record.file = file.string();
-  record.status =
-      error.kind == ErrorKind::kUnsupported ? RecordStatus::kSkipped : RecordStatus::kError;
-  Error without_file = error;
-  without_file.file.clear();
-  record.reason = without_file.ToString();
-  record.software_version = kVersion;
-  return record;
-}
 
 class DicomMeasurer : public ImageMeasurer {
  public:
