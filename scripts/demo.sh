@@ -40,25 +40,27 @@ rm -rf "$OUT/tables"
 "$BIN" tables --store "$OUT/audit.sqlite" --format xlsx --out "$OUT/tables.xlsx" \
   --pseudonymise --key-file "$OUT/manager.key"
 
-step "report: the busiest month, with feedback sheets"
 # The busiest month of the three, so the report has the most to show.
 PERIOD=$(sqlite3 "$OUT/audit.sqlite" \
   "SELECT month FROM images WHERE month <> '' GROUP BY month ORDER BY count(*) DESC LIMIT 1" \
   2>/dev/null || true)
 [[ -n "$PERIOD" ]] || PERIOD=$(date +%Y-%m)
+step "physicist QC: a synthetic test exposure of XR-ROOM-1"
+rm -rf "$OUT/qc"
+# Dated in the reported month, so the report shows the room's QC beside its clinical audit.
+"$BIN" synth-qc --out "$OUT/qc" --count 1 --seed "$SEED" --room XR-ROOM-1 \
+  --date "${PERIOD/-/}15"
+qc_image=$(find "$OUT/qc" -name '*.dcm' | sort | head -n 1)
+"$BIN" qc-field "$qc_image" --store "$OUT/audit.sqlite" --html "$OUT/qc-report.html" || \
+  echo "demo: the QC check reported a problem (see above)"
+
+step "report: the busiest month, with feedback sheets"
 "$BIN" report --store "$OUT/audit.sqlite" --period "$PERIOD" --out "$OUT/report.html" \
   --feedback "$OUT/feedback"
 
 step "overlay: one image with its measured field and anatomy"
 first=$(find "$OUT/images" -name '*.dcm' | sort | head -n 1)
 "$BIN" overlay "$first" --png "$OUT/overlay.png"
-
-step "physicist QC: a synthetic test exposure of XR-ROOM-1"
-rm -rf "$OUT/qc"
-"$BIN" synth-qc --out "$OUT/qc" --count 1 --seed "$SEED" --room XR-ROOM-1
-qc_image=$(find "$OUT/qc" -name '*.dcm' | sort | head -n 1)
-"$BIN" qc-field "$qc_image" --store "$OUT/audit.sqlite" --html "$OUT/qc-report.html" || \
-  echo "demo: the QC check reported a problem (see above)"
 
 step "done"
 cat <<MSG
