@@ -66,6 +66,10 @@ std::string FormatSummary(const ScanSummary& s) {
     for (const Error& e : s.problems) out << "\n    " << e.ToString();
   }
   if (s.store_error) out << "\n  store: " << s.store_error->ToString();
+  if (s.stopped || s.store_error) {
+    out << "\n  run the same command again to measure the rest: what is stored is kept and "
+           "skipped";
+  }
   return out.str();
 }
 

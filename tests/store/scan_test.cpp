@@ -359,6 +359,8 @@ TEST_CASE("FullStoreEndsScanWithClearMessageKeepsRowsAndResumes") {
   CHECK(summary.ok == kept);
   CHECK(kept > 0);
   CHECK(FormatSummary(summary).find("scan ended early") != std::string::npos);
+  // A batch that ended early tells the user how to resume it.
+  CHECK(FormatSummary(summary).find("run the same command again") != std::string::npos);
 
   auto store = OpenOrFail(dir / "s.db");
   ScanSummary resumed = ScanOrFail(files, *store, measurer, Options(2));
