@@ -70,6 +70,22 @@ bool HasConsoleError(const std::string& log) {
   return std::regex_search(log, kError);
 }
 
+// Embedded PNG thumbnails of at least 1000 base64 characters followed by an alt text. Plain
+// string search: std::regex recurses once per character and overflows the stack on such runs.
+long CountThumbnails(const std::string& dom) {
+  const std::string head = "<img src=\"data:image/png;base64,";
+  const std::string base64 =
+      "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/=";
+  long count = 0;
+  for (size_t at = dom.find(head); at != std::string::npos; at = dom.find(head, at + 1)) {
+    const size_t start = at + head.size();
+    const size_t end = dom.find_first_not_of(base64, start);
+    if (end == std::string::npos || end - start < 1000) continue;
+    if (dom.compare(end, 7, "\" alt=\"") == 0) ++count;
+  }
+  return count;
+}
+
 fs::path WorkDir(const std::string& name) {
   fs::path dir = fs::current_path() / name;
   fs::remove_all(dir);
@@ -103,9 +119,7 @@ TEST_CASE("ReportRendersOfflineInChromiumWithChartsAndThumbnails") {
   const std::regex svg(R"(<svg id="chart-)");
   CHECK(std::distance(std::sregex_iterator(report.dom.begin(), report.dom.end(), svg),
                       std::sregex_iterator()) == 3);
-  const std::regex thumb(R"(<img src="data:image/png;base64,[A-Za-z0-9+/=]{1000,}" alt=")");
-  CHECK(std::distance(std::sregex_iterator(report.dom.begin(), report.dom.end(), thumb),
-                      std::sregex_iterator()) == static_cast<long>(m.worst.size() - 1));
+  CHECK(CountThumbnails(report.dom) == static_cast<long>(m.worst.size() - 1));
   CHECK(report.dom.find("Picture not available") != std::string::npos);
 
   BrowserRun sheet = Render(dir / "feedback.html", dir);
