@@ -71,24 +71,6 @@ Polygon Baseline(const Image& image, bool linear) {
   return p;
 }
 
-// The second field of a double exposure, which the synthetic truth keeps in a note.
-std::optional<Polygon> SecondField(const FieldMeasurement& truth) {
-  const std::string key = "second exposure field (px):";
-  for (const std::string& note : truth.notes) {
-    if (note.rfind(key, 0) != 0) continue;
-    Polygon p;
-    const char* c = note.c_str() + key.size();
-    double x = 0, y = 0;
-    int used = 0;
-    while (std::sscanf(c, " %lf,%lf%n", &x, &y, &used) == 2) {
-      p.push_back({x, y});
-      c += used;
-    }
-    if (p.size() >= 3) return p;
-  }
-  return std::nullopt;
-}
-
 Row RunOne(const SynthImage& img, double pixel_mm, bool full, Polygon* found) {
   Row r;
   r.situation = img.situation;
@@ -132,8 +114,9 @@ Row RunOne(const SynthImage& img, double pixel_mm, bool full, Polygon* found) {
   if (truth_seen.size() < 3) truth_seen = t.polygon_px;
   r.hausdorff_mm = HausdorffDistance(m.polygon_px, truth_seen, step) * pixel_mm;
   // On a double exposure either field is a right answer (which one came first is unknowable).
-  if (auto second = SecondField(t)) {
-    r.hausdorff_mm = std::min(r.hausdorff_mm, HausdorffDistance(m.polygon_px, *second, step) * pixel_mm);
+  if (img.second_field_px) {
+    r.hausdorff_mm = std::min(
+        r.hausdorff_mm, HausdorffDistance(m.polygon_px, *img.second_field_px, step) * pixel_mm);
   }
   r.baseline_mm =
       HausdorffDistance(Baseline(img.pixels, img.linear), t.polygon_px, step) * pixel_mm;

@@ -174,6 +174,9 @@ struct SynthImage {
   // The part of the image not blanked electronically (the whole image when nothing is):
   // a detector can only see the field there.
   Polygon unmasked_px;
+  // The other field of a double exposure, clipped to the image (either field is a right answer
+  // for a detector; which one came first cannot be told from the pixels).
+  std::optional<Polygon> second_field_px;
 };
 
 // Draws a scenario; the same (seed, index, options) always gives the same scenario.

@@ -182,6 +182,7 @@ SynthImage Generate(const SynthScenario& sc) {
     const auto [x0, y0, x1, y1] = UnmaskedRectPx(sc, w);
     img.unmasked_px = RectPolygon(x0, y0, x1, y1);
   }
+  if (sc.double_exposure) img.second_field_px = ComputeFieldGeometry(SecondExposure(sc)).clipped;
   if (img.truth.dose) {
     img.truth.dose->exposure_index = img.header.exposure_index;
     img.truth.dose->deviation_index = img.header.deviation_index;
