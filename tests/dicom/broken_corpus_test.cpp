@@ -44,6 +44,18 @@ struct ChildOutcome {
   long max_rss_kib = 0;
 };
 
+// Exit code, signal and peak memory of a finished child.
+ChildOutcome WaitForChild(pid_t pid) {
+  ChildOutcome outcome;
+  int status = 0;
+  struct rusage usage {};
+  wait4(pid, &status, 0, &usage);
+  if (WIFEXITED(status)) outcome.exit_code = WEXITSTATUS(status);
+  if (WIFSIGNALED(status)) outcome.signal = WTERMSIG(status);
+  outcome.max_rss_kib = usage.ru_maxrss;
+  return outcome;
+}
+
 ChildOutcome ReadInChild(const fs::path& file) {
   pid_t pid = fork();
   if (pid == 0) {
@@ -55,14 +67,7 @@ ChildOutcome ReadInChild(const fs::path& file) {
               ? kChildSaysError
               : kChildErrorWithoutFile);
   }
-  ChildOutcome outcome;
-  int status = 0;
-  struct rusage usage {};
-  wait4(pid, &status, 0, &usage);
-  if (WIFEXITED(status)) outcome.exit_code = WEXITSTATUS(status);
-  if (WIFSIGNALED(status)) outcome.signal = WTERMSIG(status);
-  outcome.max_rss_kib = usage.ru_maxrss;
-  return outcome;
+  return WaitForChild(pid);
 }
 
 // The per-image pipeline as fuzz/fuzz_measure.cpp drives it: a record always, and a reason
@@ -79,14 +84,7 @@ ChildOutcome MeasureInChild(const fs::path& file) {
     if (record.status == beamtrim::RecordStatus::kOk) _exit(kChildSaysOk);
     _exit(record.reason.empty() ? kChildErrorWithoutFile : kChildSaysError);
   }
-  ChildOutcome outcome;
-  int status = 0;
-  struct rusage usage {};
-  wait4(pid, &status, 0, &usage);
-  if (WIFEXITED(status)) outcome.exit_code = WEXITSTATUS(status);
-  if (WIFSIGNALED(status)) outcome.signal = WTERMSIG(status);
-  outcome.max_rss_kib = usage.ru_maxrss;
-  return outcome;
+  return WaitForChild(pid);
 }
 
 bool FromMeasureTarget(const fs::path& file) {
