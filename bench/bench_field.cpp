@@ -1,7 +1,7 @@
 // Accuracy and speed of the field detector on synthetic radiographs with exact truth, side by
 // side with a plain baseline (Otsu threshold, largest contour, minimum-area rectangle).
 // Not a test: prints a table (docs/validation.md, "Field detection").
-//   bench_field [--count N] [--full K] [--seed S] [--full-mm P] [--dump DIR]
+//   bench_field [--count N] [--full K] [--seed S] [--full-mm P] [--dump DIR] [--only CLASS]
 // Every situation class is drawn in turn with fixed seeds; one core (OpenCV threads off).
 #include <algorithm>
 #include <chrono>
@@ -177,6 +177,7 @@ int main(int argc, char** argv) {
   uint64_t seed = 20261202;
   double full_mm = 0.143;  // 3000 px across a 430 mm receptor
   std::string dump;         // folder for pictures of the images with a Hausdorff > 2 mm
+  std::string only;         // one situation class (its name), for quicker runs while working
   for (int i = 1; i + 1 < argc; i += 2) {
     const std::string a = argv[i];
     if (a == "--count") count = std::atoi(argv[i + 1]);
@@ -184,6 +185,7 @@ int main(int argc, char** argv) {
     else if (a == "--seed") seed = std::strtoull(argv[i + 1], nullptr, 10);
     else if (a == "--full-mm") full_mm = std::atof(argv[i + 1]);
     else if (a == "--dump") dump = argv[i + 1];
+    else if (a == "--only") only = argv[i + 1];
   }
   cv::setNumThreads(1);
   const std::vector<SynthSituation> classes = AllSynthSituations();
@@ -191,6 +193,7 @@ int main(int argc, char** argv) {
   for (int i = 0; i < count + full; ++i) {
     SynthOptions o;
     o.situation = classes[i % classes.size()];
+    if (!only.empty() && only != SynthSituationName(o.situation)) continue;
     const bool is_full = i >= count;
     o.pixel_mm = is_full ? full_mm : 0.5;
     o.syntax = TransferSyntax::kExplicitLittle;

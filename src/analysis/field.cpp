@@ -31,7 +31,7 @@ Prepared Prepare(const Image& image, const FieldContext& ctx, const FieldOptions
   WorkingImage& wk = p.working;
   wk.factor = WorkingFactor(image, ctx, opt);
   Blocks blocks = DownsampleBlocks(image, wk.factor);
-  *blank = FindBlankMask(image, blocks, wk.factor);
+  *blank = FindBlankMask(image, blocks, wk.factor, *linear);
   cv::Mat1b mask;
   cv::dilate(blank->mask, mask, cv::Mat(), cv::Point(-1, -1), 2);
   wk.blanked = blank->mask;

@@ -73,7 +73,7 @@ void BoundarySteps(const Image& image, const cv::Mat1b& mask, int factor, float 
 
 }  // namespace
 
-BlankResult FindBlankMask(const Image& image, const Blocks& blocks, int factor) {
+BlankResult FindBlankMask(const Image& image, const Blocks& blocks, int factor, bool linear) {
   BlankResult out;
   out.mask = cv::Mat1b(blocks.mean.size(), 0);
   const auto c = BorderConstant(blocks);
@@ -99,14 +99,19 @@ BlankResult FindBlankMask(const Image& image, const Blocks& blocks, int factor) 
     return out;
   }
   // A display window clipping a dark plateau also gives constant pixels, but they join the
-  // rest of the image smoothly; an electronic mask ends in a jump.
+  // rest of the image smoothly; an electronic mask ends in a jump. On processed images the
+  // jump must also be visible on the display scale. On linear images no such floor applies:
+  // a mask at zero beside the blocked plateau jumps by the plateau's own level, which may be
+  // well under a thousandth of the open level when the blades leak little, yet a quantum-
+  // noise plateau never holds whole blocks of one exact value.
   cv::Mat1b rest = out.mask == 0;
   const double hi = Percentile(blocks.mean, rest, 99.9);
   const double lo = Percentile(blocks.mean, rest, 0.1);
   const double span = std::max({std::fabs(hi - *c), std::fabs(lo - *c), 1e-12});
   double jump = 0.0, next = 0.0;
   BoundarySteps(image, out.mask, factor, *c, &jump, &next);
-  if (jump < 0.02 * span || jump < 3.0 * next) {
+  const double floor = linear ? 0.0 : 0.005 * span;
+  if (jump <= floor || jump < 3.0 * next) {
     out.mask.setTo(0);
     return out;
   }

@@ -54,8 +54,9 @@ struct BlankResult {
 };
 // Finds an electronically blanked outside: blocks of exactly one constant value, connected to
 // the image border, covering a noticeable share of the image, whose boundary is a jump (not
-// the gradual approach of a display window clipping a dark plateau).
-BlankResult FindBlankMask(const Image& image, const Blocks& blocks, int factor);
+// the gradual approach of a display window clipping a dark plateau). `linear`: pixel values
+// proportional to exposure (the jump is then judged against the neighbours alone).
+BlankResult FindBlankMask(const Image& image, const Blocks& blocks, int factor, bool linear);
 
 // ---- Rotated frame and side candidates (field_lines.cpp) --------------------------------
 

@@ -179,13 +179,41 @@ TEST_CASE("BlankMaskNeedsAJumpNotAClippedPlateau") {
   s.blank_value = 0.0f;
   Image img = testimg::Render(s);
   Blocks b = DownsampleBlocks(img, 4);
-  CHECK(FindBlankMask(img, b, 4).blanked);
+  CHECK(FindBlankMask(img, b, 4, false).blanked);
 
   testimg::Spec clip;  // values below the plateau + a bit clamped to the plateau level
   Image c = testimg::Render(clip);
   for (int y = 0; y < c.height(); ++y) for (int x = 0; x < c.width(); ++x) c.at(x, y) = std::max(c.at(x, y), 120.0f);
   Blocks cb = DownsampleBlocks(c, 4);
-  CHECK_FALSE(FindBlankMask(c, cb, 4).blanked);
+  CHECK_FALSE(FindBlankMask(c, cb, 4, false).blanked);
+}
+
+TEST_CASE("BlankMaskAtZeroBesideLowLeakageOnLinearImages") {
+  // Lead blades pass well under 0.1 % of the primary beam (trade notes, collimator leakage);
+  // a mask set to zero next to such a plateau jumps by only that plateau's level, a tiny share
+  // of the image's range, but it is still a jump against the plateau's own noise.
+  testimg::Spec s;
+  s.open = 1e6;
+  s.blocked = 0.0005;
+  s.noise = 0.00002;
+  s.blank_outside = RectPolygon(60, 50, 340, 310);
+  s.blank_value = 0.0f;
+  Image img = testimg::Render(s);
+  Blocks b = DownsampleBlocks(img, 4);
+  CHECK(FindBlankMask(img, b, 4, true).blanked);
+  // The same tiny jump on a display scale is not taken for a mask: it cannot be told from a
+  // window that clips a dark plateau.
+  CHECK_FALSE(FindBlankMask(img, b, 4, false).blanked);
+
+  // A raw plateau under opaque blades clipped at the detector's floor (the renderer clamps
+  // at 1): the clipped pixels run into the penumbra ramp smoothly, so there is no mask.
+  testimg::Spec z;
+  z.open = 1e6;
+  z.blocked = 0.0;
+  z.noise = 0.00001;
+  Image zi = testimg::Render(z);
+  Blocks zb = DownsampleBlocks(zi, 2);
+  CHECK_FALSE(FindBlankMask(zi, zb, 2, true).blanked);
 }
 
 TEST_CASE("WorkingFactorGivesAboutTwoMillimetrePixels") {
