@@ -136,28 +136,80 @@ Status CheckGeometry(const Context& c, const RadiographHeader& h) {
   return Status::Ok();
 }
 
-// Stored values of the first frame, one int per pixel, as Pixel Representation says.
+// Stored values of the first frame, one int per pixel, as Pixel Representation says (the
+// JPEG 2000 decoder's output).
 using Stored = std::vector<int32_t>;
 
-Stored UnpackNative(const std::vector<uint8_t>& buf, const RadiographHeader& h) {
-  size_t n = static_cast<size_t>(h.rows) * h.columns;
-  Stored out(n);
-  int shift = h.high_bit + 1 - h.bits_stored;  // PS3.5 8.1.1: bits sit below High Bit
-  uint32_t mask = h.bits_stored >= 32 ? 0xFFFFFFFFu : ((1u << h.bits_stored) - 1u);
-  uint32_t sign = 1u << (h.bits_stored - 1);
-  for (size_t i = 0; i < n; ++i) {
-    uint32_t raw;
-    if (h.bits_allocated == 8) raw = buf[i];
-    else if (h.bits_allocated == 16) raw = reinterpret_cast<const Uint16*>(buf.data())[i];
-    else raw = reinterpret_cast<const Uint32*>(buf.data())[i];
-    raw = (raw >> shift) & mask;
-    if (h.pixel_representation == 1 && (raw & sign) != 0) {
-      out[i] = static_cast<int32_t>(static_cast<int64_t>(raw) - (int64_t{1} << h.bits_stored));
-    } else {
-      out[i] = static_cast<int32_t>(raw);
-    }
+// Direction of the stored scale (docs/dicom.md "Pixel convention"). Pixel Intensity
+// Relationship Sign (0028,1041) decides when present: -1 means higher values = less X-ray
+// intensity (PS3.3 DX Image module). Without it: MONOCHROME1 shows low values white
+// (PS3.3 C.7.6.3.1.2), white = little radiation, so larger already means more radiation;
+// MONOCHROME2 linear or FOR PROCESSING data are detector signal, larger = more; other
+// MONOCHROME2 images are display-ready with bone bright, so they are inverted.
+bool Inverted(const RadiographHeader& h) {
+  if (h.pixel_intensity_relationship_sign != 0) return h.pixel_intensity_relationship_sign < 0;
+  if (h.photometric_interpretation == "MONOCHROME1") return false;
+  return !(h.pixel_intensity_relationship == "LIN" || h.presentation_intent_type == "FOR PROCESSING");
+}
+
+// Stored value -> Image value. Modality value m = slope * stored + intercept (PS3.3
+// C.11.1.1.2). An inverted scale is mirrored within the representable modality range
+// [m_lo, m_hi]: out = m_lo + m_hi - m, which keeps the range (and keeps values >= 0 when
+// m_lo >= 0).
+struct ToImageValue {
+  explicit ToImageValue(const RadiographHeader& h)
+      : slope(h.rescale_slope), intercept(h.rescale_intercept), invert(Inverted(h)) {
+    double lo = h.pixel_representation == 1 ? -std::ldexp(1.0, h.bits_stored - 1) : 0.0;
+    double hi = h.pixel_representation == 1 ? std::ldexp(1.0, h.bits_stored - 1) - 1.0
+                                            : std::ldexp(1.0, h.bits_stored) - 1.0;
+    mirror = slope * (lo + hi) + 2.0 * intercept;
   }
-  return out;
+  float operator()(int32_t stored) const {
+    double m = slope * stored + intercept;
+    return static_cast<float>(invert ? mirror - m : m);
+  }
+  double slope, intercept, mirror;
+  bool invert;
+};
+
+void Normalise(const Stored& s, const RadiographHeader& h, Image& out) {
+  out = Image(h.columns, h.rows);
+  const ToImageValue value(h);
+  float* px = out.data();
+  for (size_t i = 0; i < s.size(); ++i) px[i] = value(s[i]);
+}
+
+// Native (little-endian, as DCMTK delivers them) samples of the first frame straight to the
+// Image: the bits below High Bit (PS3.5 8.1.1), sign-extended when Pixel Representation is 1,
+// then ToImageValue. One pass, no intermediate array of stored values.
+template <class Sample>
+void NormaliseSamples(const Sample* raw_samples, const RadiographHeader& h, Image& out) {
+  out = Image(h.columns, h.rows);
+  const size_t n = static_cast<size_t>(h.rows) * h.columns;
+  const int shift = h.high_bit + 1 - h.bits_stored;
+  const uint32_t mask = h.bits_stored >= 32 ? 0xFFFFFFFFu : ((1u << h.bits_stored) - 1u);
+  const uint32_t sign = 1u << (h.bits_stored - 1);
+  const bool is_signed = h.pixel_representation == 1;
+  const ToImageValue value(h);
+  float* px = out.data();
+  for (size_t i = 0; i < n; ++i) {
+    const uint32_t raw = (static_cast<uint32_t>(raw_samples[i]) >> shift) & mask;
+    const int32_t stored =
+        is_signed && (raw & sign) != 0
+            ? static_cast<int32_t>(static_cast<int64_t>(raw) - (int64_t{1} << h.bits_stored))
+            : static_cast<int32_t>(raw);
+    px[i] = value(stored);
+  }
+}
+
+void NormaliseNative(const std::vector<uint8_t>& buf, const RadiographHeader& h, Image& out) {
+  if (h.bits_allocated == 8) {
+    NormaliseSamples(buf.data(), h, out);
+  } else if (h.bits_allocated == 16) {
+    NormaliseSamples(reinterpret_cast<const Uint16*>(buf.data()), h, out);
+  } else {
+    NormaliseSamples(reinterpret_cast<const Uint32*>(buf.data()), h, out);
+  }
 }
 
 Status CheckNativeLength(const Context& c, DcmElement& pixel, const RadiographHeader& h,
@@ -180,8 +232,8 @@ Status CheckNativeLength(const Context& c, DcmElement& pixel, const RadiographHe
   return Status::Ok();
 }
 
-Result<Stored> DecodeWithDcmtk(const Context& c, DcmDataset& ds, DcmElement& pixel,
-                               const RadiographHeader& h, bool encapsulated) {
+Status DecodeWithDcmtk(const Context& c, DcmDataset& ds, DcmElement& pixel,
+                       const RadiographHeader& h, bool encapsulated, Image& out) {
   if (!encapsulated) {
     Status s = CheckNativeLength(c, pixel, h, h.transfer_syntax_uid == "1.2.840.10008.1.2.1.99");
     if (!s) return s.error();
@@ -196,7 +248,8 @@ Result<Stored> DecodeWithDcmtk(const Context& c, DcmDataset& ds, DcmElement& pix
     return Fail(c, ErrorKind::kMalformed, DCM_PixelData,
                 std::string("first frame could not be decoded: ") + cond.text());
   }
-  return UnpackNative(buf, h);
+  NormaliseNative(buf, h, out);
+  return Status::Ok();
 }
 
 // Fragments of frame 1 in an encapsulated sequence (PS3.5 A.4): item 0 is the Basic Offset
@@ -289,42 +342,14 @@ Result<Stored> DecodeJpeg2000(const Context& c, DcmElement& pixel, const Radiogr
 }
 
 // RLE Lossless is decoded by beamtrim itself (src/dicom/rle.cpp explains why).
-Result<Stored> DecodeRle(const Context& c, DcmElement& pixel, const RadiographHeader& h) {
+Status DecodeRle(const Context& c, DcmElement& pixel, const RadiographHeader& h, Image& out) {
   Result<std::vector<uint8_t>> bytes = EncapsulatedFirstFrame(c, pixel, h, "RLE");
   if (!bytes) return bytes.error();
   Result<std::vector<uint8_t>> frame =
       DecodeRleFrame(bytes->data(), bytes->size(), h.rows, h.columns, h.bits_allocated / 8);
   if (!frame) return Fail(c, ErrorKind::kMalformed, DCM_PixelData, frame.error().reason);
-  return UnpackNative(*frame, h);
-}
-
-// Direction of the stored scale (docs/dicom.md "Pixel convention"). Pixel Intensity
-// Relationship Sign (0028,1041) decides when present: -1 means higher values = less X-ray
-// intensity (PS3.3 DX Image module). Without it: MONOCHROME1 shows low values white
-// (PS3.3 C.7.6.3.1.2), white = little radiation, so larger already means more radiation;
-// MONOCHROME2 linear or FOR PROCESSING data are detector signal, larger = more; other
-// MONOCHROME2 images are display-ready with bone bright, so they are inverted.
-bool Inverted(const RadiographHeader& h) {
-  if (h.pixel_intensity_relationship_sign != 0) return h.pixel_intensity_relationship_sign < 0;
-  if (h.photometric_interpretation == "MONOCHROME1") return false;
-  return !(h.pixel_intensity_relationship == "LIN" || h.presentation_intent_type == "FOR PROCESSING");
-}
-
-void Normalise(const Stored& s, const RadiographHeader& h, Image& out) {
-  // Modality value m = slope * stored + intercept (PS3.3 C.11.1.1.2). An inverted scale is
-  // mirrored within the representable modality range [m_lo, m_hi]: out = m_lo + m_hi - m,
-  // which keeps the range (and keeps values >= 0 when m_lo >= 0).
-  out = Image(h.columns, h.rows);
-  double lo = h.pixel_representation == 1 ? -std::ldexp(1.0, h.bits_stored - 1) : 0.0;
-  double hi = h.pixel_representation == 1 ? std::ldexp(1.0, h.bits_stored - 1) - 1.0
-                                          : std::ldexp(1.0, h.bits_stored) - 1.0;
-  double mirror = h.rescale_slope * (lo + hi) + 2.0 * h.rescale_intercept;
-  bool invert = Inverted(h);
-  float* px = out.data();
-  for (size_t i = 0; i < s.size(); ++i) {
-    double m = h.rescale_slope * s[i] + h.rescale_intercept;
-    px[i] = static_cast<float>(invert ? mirror - m : m);
-  }
+  NormaliseNative(*frame, h, out);
+  return Status::Ok();
 }
 
 bool IsLinear(const RadiographHeader& h) {
@@ -347,13 +372,14 @@ Status DecodePixels(const Context& c, DcmDataset& ds, Radiograph& r) {
   if (xfer.isEncapsulated() && !own_decoder) {
     if (Status s = CheckJpegFrameSize(c, *pixel, h); !s) return s;
   }
-  Result<Stored> stored = IsJpeg2000(h.transfer_syntax_uid) ? DecodeJpeg2000(c, *pixel, h, r.notes)
-                          : h.transfer_syntax_uid == kRleUid
-                              ? DecodeRle(c, *pixel, h)
-                              : DecodeWithDcmtk(c, ds, *pixel, h, xfer.isEncapsulated());
-  if (!stored) return stored.error();
-  Normalise(*stored, h, r.pixels);
-  return Status::Ok();
+  if (IsJpeg2000(h.transfer_syntax_uid)) {
+    Result<Stored> stored = DecodeJpeg2000(c, *pixel, h, r.notes);
+    if (!stored) return stored.error();
+    Normalise(*stored, h, r.pixels);
+    return Status::Ok();
+  }
+  if (h.transfer_syntax_uid == kRleUid) return DecodeRle(c, *pixel, h, r.pixels);
+  return DecodeWithDcmtk(c, ds, *pixel, h, xfer.isEncapsulated(), r.pixels);
 }
 
 Result<Radiograph> ReadChecked(const Context& c) {
