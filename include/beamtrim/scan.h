@@ -122,6 +122,13 @@ std::string FormatSummary(const ScanSummary& summary);
 // A reason without its leading file name, so equal reasons from different files count together.
 std::string ReasonKey(const std::string& file, const std::string& reason);
 
+// Makes the C allocator keep freed blocks of up to 32 MiB for reuse instead of returning
+// them to the system after each image, so every image's pixel buffers reuse memory already
+// mapped rather than faulting fresh pages in (a large share of the measuring time
+// otherwise; docs/performance.md). Process-wide (glibc mallopt; nothing elsewhere);
+// idempotent; the scan calls it, and so should any pass that is compared with a scan.
+void TuneAllocatorForBatch();
+
 // Scans the given files into an open store. `stop` (optional) ends the scan early: files not
 // yet started are left for the next run; measured ones are still written.
 Result<ScanSummary> ScanFiles(const std::vector<std::filesystem::path>& files, Store& store,
