@@ -3,64 +3,109 @@
 // evidence that a boundary is a blade shadow rather than an anatomy edge or an object.
 #include <algorithm>
 #include <cmath>
+#include <functional>
 #include <numeric>
 #include <vector>
 
 #include <opencv2/imgproc.hpp>
 
 #include "analysis/field_internal.h"
+#include "analysis/field_lines_reference.h"
 
 namespace beamtrim::field_internal {
 namespace {
 
 constexpr double kDeg = M_PI / 180.0;
 
-double Median(std::vector<double>& v) {
+template <class T>
+double Median(std::vector<T>& v) {
   if (v.empty()) return 0.0;
   auto mid = v.begin() + v.size() / 2;
   std::nth_element(v.begin(), mid, v.end());
   return *mid;
 }
 
-// Access to frame pixels by (depth k from the boundary, along-edge index t) for one side.
-// k >= 0 on the outside counts away from the field; inside it counts into the field.
-struct SideView {
-  const Frame& f;
-  Side side;
-  int p;
-  bool vertical() const { return side == Side::kLeft || side == Side::kRight; }
-  int along_size() const { return vertical() ? f.value.rows : f.value.cols; }
-  int across_size() const { return vertical() ? f.value.cols : f.value.rows; }
-  // Index across the edge of the k-th pixel outside (outside=true) or inside.
-  int Across(int k, bool outside) const {
-    const bool low_is_outside = side == Side::kLeft || side == Side::kTop;
-    if (low_is_outside == outside) return p - 1 - k;
-    return p + k;
+// A side's frame pixels as (along-edge index t, across index a) through element strides, so
+// the kernels below walk raw rows for every side; SideView (field_lines_reference.h) is the
+// slow, checked form of the same access.
+struct Strided {
+  const float* v;
+  const float* g;
+  const uchar* m;
+  ptrdiff_t vt, va, gt, ga, mt, ma;
+  int along, across;
+  float Value(int t, int a) const { return v[t * vt + a * va]; }
+  float Grad(int t, int a) const { return g[t * gt + a * ga]; }
+  bool Valid(int t, int a) const { return m[t * mt + a * ma] != 0; }
+};
+
+Strided StridedFor(const Frame& f, Side side) {
+  const bool vertical = side == Side::kLeft || side == Side::kRight;
+  const ptrdiff_t vr = static_cast<ptrdiff_t>(f.value.step1());
+  const ptrdiff_t gr = static_cast<ptrdiff_t>(f.grad.step1());
+  const ptrdiff_t mr = static_cast<ptrdiff_t>(f.valid.step1());
+  Strided s{f.value.ptr<float>(0), f.grad.empty() ? nullptr : f.grad.ptr<float>(0),
+            f.valid.ptr<uchar>(0), 0, 0, 0, 0, 0, 0, 0, 0};
+  if (vertical) {
+    s.vt = vr, s.va = 1, s.gt = gr, s.ga = 1, s.mt = mr, s.ma = 1;
+    s.along = f.value.rows, s.across = f.value.cols;
+  } else {
+    s.vt = 1, s.va = vr, s.gt = 1, s.ga = gr, s.mt = 1, s.ma = mr;
+    s.along = f.value.cols, s.across = f.value.rows;
   }
-  // Sums of the strips [gap, gap + band) pixels outside and inside the edge at along-index t.
-  struct Strips {
-    double out_sum = 0.0, in_sum = 0.0;
-    int out_n = 0, in_n = 0;
-  };
-  Strips SumStrips(int t, int gap, int band) const {
-    Strips s;
-    for (int k = gap; k < gap + band; ++k) {
-      float v;
-      if (Get(f.value, k, t, true, &v)) { s.out_sum += v; ++s.out_n; }
-      if (Get(f.value, k, t, false, &v)) { s.in_sum += v; ++s.in_n; }
-    }
-    return s;
-  }
-  bool Get(const cv::Mat1f& m, int k, int t, bool outside, float* out) const {
-    const int a = Across(k, outside);
-    if (a < 0 || a >= across_size() || t < 0 || t >= along_size()) return false;
-    const int row = vertical() ? t : a;
-    const int col = vertical() ? a : t;
-    if (!f.valid(row, col)) return false;
-    *out = m(row, col);
-    return true;
+  return s;
+}
+
+// The across index of the k-th pixel from a boundary in one direction: a = base + sign * k,
+// as SideView::Across; Ks clamps a depth range [k0, k1) to the pixels inside the frame.
+struct Direction {
+  int base;
+  int sign;
+  int Across(int k) const { return base + sign * k; }
+  std::pair<int, int> Ks(int k0, int k1, int across) const {
+    // sign -1: 0 <= base - k < across  <=>  base - across < k <= base.
+    const int lo = sign < 0 ? base - across + 1 : -base;
+    const int hi = sign < 0 ? base + 1 : across - base;
+    return {std::max(k0, lo), std::min(k1, hi)};
   }
 };
+
+// Calls fn(k, &value, &grad) for every valid pixel at depths k = k0, k0 + k_step, ... < k1
+// (inside the frame) and along-edge indices t = 0, t_step, ...; rows are walked contiguously
+// whatever the side, so the order of the calls is not t-major: only for order-free sums.
+template <class Fn>
+void ForEachPixel(const Strided& px, Direction d, int k0, int k1, int k_step, int t_step, Fn fn) {
+  if (px.va == 1) {  // t runs down the rows, k along each row
+    for (int t = 0; t < px.along; t += t_step) {
+      const float* v = px.v + t * px.vt;
+      const float* g = px.g ? px.g + t * px.gt : nullptr;
+      const uchar* m = px.m + t * px.mt;
+      for (int k = k0; k < k1; k += k_step) {
+        const int a = d.Across(k);
+        if (m[a]) fn(k, v + a, g ? g + a : nullptr);
+      }
+    }
+  } else {  // k runs down the rows, t along each row
+    for (int k = k0; k < k1; k += k_step) {
+      const int a = d.Across(k);
+      const float* v = px.v + a * px.va;
+      const float* g = px.g ? px.g + a * px.ga : nullptr;
+      const uchar* m = px.m + a * px.ma;
+      for (int t = 0; t < px.along; t += t_step) {
+        if (m[t]) fn(k, v + t, g ? g + t : nullptr);
+      }
+    }
+  }
+}
+
+Direction Outward(Side side, int p) {
+  const bool low_is_outside = side == Side::kLeft || side == Side::kTop;
+  return low_is_outside ? Direction{p - 1, -1} : Direction{p, 1};
+}
+Direction Inward(Side side, int p) {
+  const bool low_is_outside = side == Side::kLeft || side == Side::kTop;
+  return low_is_outside ? Direction{p, 1} : Direction{p - 1, -1};
+}
 
 }  // namespace
 
@@ -105,8 +150,18 @@ std::vector<double> CandidateAngles(const WorkingImage& working, const cv::Mat1f
   cv::magnitude(gx, gy, mag);
   const double thr = std::max(Percentile(mag, working.valid, 85.0),
                               0.02 * (working.hi - working.lo));
-  // acc[(angle * 4 + family_sign) * offsets + offset]
-  std::vector<float> acc(static_cast<size_t>(kAngles) * 4 * offsets, 0.0f);
+  // acc[(angle * 4 + family_sign) * offsets + offset]. About 2 MB: kept per thread and
+  // cleared for each image, because a fresh allocation of that size is mapped anew every time
+  // and faulting its pages in cost more than the voting itself.
+  thread_local std::vector<float> acc;
+  acc.assign(static_cast<size_t>(kAngles) * 4 * offsets, 0.0f);
+  // The same cos and sin expressions as per vote, evaluated once per bin.
+  std::vector<double> cos_bin(kAngles), sin_bin(kAngles);
+  for (int bin = 0; bin < kAngles; ++bin) {
+    const double a = -45.0 + bin * kBin;
+    cos_bin[bin] = std::cos(a * kDeg);
+    sin_bin[bin] = std::sin(a * kDeg);
+  }
   for (int y = 0; y < H; ++y) {
     for (int x = 0; x < W; ++x) {
       const float m = mag(y, x);
@@ -121,7 +176,7 @@ std::vector<double> CandidateAngles(const WorkingImage& working, const cv::Mat1f
         if (std::fabs(d) > kTol) continue;
         const int q = static_cast<int>(std::lround((phi - a) / 90.0));
         const int fam_sign = ((q % 4) + 4) % 4;  // 0: +n1, 1: +n2, 2: -n1, 3: -n2
-        const double ca = std::cos(a * kDeg), sa = std::sin(a * kDeg);
+        const double ca = cos_bin[bin], sa = sin_bin[bin];
         const double px = x + 0.5, py = y + 0.5;
         const double off = (fam_sign % 2 == 0) ? px * ca + py * sa : -px * sa + py * ca;
         const int o = std::clamp(static_cast<int>(std::lround(off)) + diag, 0, offsets - 1);
@@ -153,19 +208,19 @@ std::vector<double> CandidateAngles(const WorkingImage& working, const cv::Mat1f
 }
 
 std::vector<int> SideCandidates(const Frame& frame, Side side, Span span, int count) {
-  SideView view{frame, side, 0};
-  const int n = view.across_size();
+  const Strided px = StridedFor(frame, side);
+  const int n = px.across;
+  const bool low_is_outside = side == Side::kLeft || side == Side::kTop;
+  // e[p]: sum over the span of (inside - outside) across boundary p, both pixels valid; each
+  // e[p] adds its terms in along-edge order, as the reference does.
   std::vector<double> e(n + 1, 0.0);
-  for (int p = 1; p < n; ++p) {
-    view.p = p;
-    double sum = 0.0;
-    for (int t = std::max(0, span.lo); t < std::min(span.hi, view.along_size()); ++t) {
-      float in, out;
-      if (view.Get(frame.value, 0, t, false, &in) && view.Get(frame.value, 0, t, true, &out)) {
-        sum += in - out;
-      }
+  const int t0 = std::max(0, span.lo), t1 = std::min(span.hi, px.along);
+  for (int t = t0; t < t1; ++t) {
+    for (int p = 1; p < n; ++p) {
+      if (!px.Valid(t, p) || !px.Valid(t, p - 1)) continue;
+      const float hi = px.Value(t, p), lo = px.Value(t, p - 1);
+      e[p] += low_is_outside ? hi - lo : lo - hi;
     }
-    e[p] = sum;
   }
   std::vector<double> smooth(e.size(), 0.0);
   for (int p = 1; p < n; ++p) smooth[p] = 0.25 * e[p - 1] + 0.5 * e[p] + 0.25 * e[p + 1];
@@ -212,35 +267,76 @@ Span StepSpan(const Frame& frame, Side side, int position, Span span) {
 
 SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span, double range,
                           double depth_px, bool bounded) {
+  const Strided px = StridedFor(frame, side);
+  const Direction out = Outward(side, position), in = Inward(side, position);
+  const int gap = 2;  // skips the penumbra and the working-resolution blur
+  const int band = 4;
+  const int depth = std::max(gap + band + 1, static_cast<int>(std::lround(depth_px)));
+  const auto [ob0, ob1] = out.Ks(gap, gap + band, px.across);
+  const auto [ib0, ib1] = in.Ks(gap, gap + band, px.across);
+  const auto [of0, of1] = out.Ks(gap + band, depth, px.across);
+  StripStats st;
+  const int t0 = std::max(0, span.lo), t1 = std::min(span.hi, px.along);
+  st.outs.reserve(std::max(0, t1 - t0));
+  st.ins.reserve(std::max(0, t1 - t0));
+  st.diffs.reserve(std::max(0, t1 - t0));
+  st.far.reserve(static_cast<size_t>(std::max(0, t1 - t0)) * std::max(0, of1 - of0));
+  for (int t = t0; t < t1; ++t) {
+    double so = 0.0, si = 0.0;
+    int no = 0, ni = 0;
+    for (int k = ob0; k < ob1; ++k) {
+      const int a = out.Across(k);
+      if (px.Valid(t, a)) { so += px.Value(t, a); ++no; }
+    }
+    for (int k = ib0; k < ib1; ++k) {
+      const int a = in.Across(k);
+      if (px.Valid(t, a)) { si += px.Value(t, a); ++ni; }
+    }
+    // A blade shadow within a few millimetres of the image border: the strip just outside
+    // the edge is all there is of the blocked plateau.
+    for (int k = gap - 1; no == 0 && k >= 1; --k) {
+      const int a = out.Across(k);
+      if (a >= 0 && a < px.across && px.Valid(t, a)) { so += px.Value(t, a); ++no; }
+    }
+    // Next to the image border the outside strip may be narrower than the band.
+    if (no == 0 || ni < band / 2) continue;
+    st.outs.push_back(so / no);
+    st.ins.push_back(si / ni);
+    st.diffs.push_back(si / ni - so / no);
+    for (int k = of0; k < of1; ++k) {
+      const int a = out.Across(k);
+      if (px.Valid(t, a)) st.far.push_back(px.Value(t, a));
+    }
+  }
+  auto beyond = [&](double bright_level, double texture_level) {
+    BeyondCounts c;
+    const auto [k0, k1] = out.Ks(gap, depth, px.across);
+    ForEachPixel(px, out, k0, k1, 1, 1, [&](int k, const float* v, const float* g) {
+      ++c.n;
+      c.bright += *v > bright_level ? 1 : 0;
+      c.textured += (k > gap && *g > texture_level) ? 1 : 0;
+    });
+    // Every other pixel from `gap` on: the first k of that parity inside the frame.
+    auto [h0, h1] = out.Ks(gap, px.across, px.across);
+    if ((h0 - gap) % 2 != 0) ++h0;
+    ForEachPixel(px, out, h0, h1, 2, 2, [&](int, const float* v, const float*) {
+      ++c.nf;
+      c.bf += *v > bright_level ? 1 : 0;
+    });
+    return c;
+  };
+  return JudgeSide(st, beyond, position, range, depth_px, bounded);
+}
+
+SideEvidence JudgeSide(StripStats& st, const std::function<BeyondCounts(double, double)>& beyond,
+                       int position, double range, double depth_px, bool bounded) {
   // A blade edge runs at least a centimetre or so: shorter straight steps are objects.
   const int min_length_px = std::max(3, static_cast<int>(std::lround(depth_px / 4.0)));
   SideEvidence ev;
   ev.position = position;
-  SideView view{frame, side, position};
-  const int gap = 2;  // skips the penumbra and the working-resolution blur
-  const int band = 4;
-  const int depth = std::max(gap + band + 1, static_cast<int>(std::lround(depth_px)));
-  std::vector<double> outs, ins, diffs, far;
-  for (int t = std::max(0, span.lo); t < std::min(span.hi, view.along_size()); ++t) {
-    const SideView::Strips st = view.SumStrips(t, gap, band);
-    double so = st.out_sum, si = st.in_sum;
-    int no = st.out_n, ni = st.in_n;
-    // A blade shadow within a few millimetres of the image border: the strip just outside
-    // the edge is all there is of the blocked plateau.
-    for (int k = gap - 1; no == 0 && k >= 1; --k) {
-      float v;
-      if (view.Get(frame.value, k, t, true, &v)) { so += v; ++no; }
-    }
-    // Next to the image border the outside strip may be narrower than the band.
-    if (no == 0 || ni < band / 2) continue;
-    outs.push_back(so / no);
-    ins.push_back(si / ni);
-    diffs.push_back(si / ni - so / no);
-    for (int k = gap + band; k < depth; ++k) {
-      float v;
-      if (view.Get(frame.value, k, t, true, &v)) far.push_back(v);
-    }
-  }
+  const std::vector<double>& outs = st.outs;
+  const std::vector<double>& ins = st.ins;
+  const std::vector<double>& diffs = st.diffs;
   if (diffs.size() < 3) {
     ev.why_not = "edge too short";
     return ev;
@@ -277,36 +373,15 @@ SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span
     ev.why_not = "edge too short";
     return ev;
   }
-  const double far_level = far.empty() ? ev.outside : Median(far);
+  const double far_level = st.far.empty() ? ev.outside : Median(st.far);
   ev.flatness = (ev.outside - far_level) / ev.step;
-  // The blade blocks its whole half-plane: test the outside strip over the full length.
-  int n = 0, bright = 0, textured = 0;
-  const double bright_level = ev.outside + 0.5 * ev.step;
-  const double texture_level = 0.15 * ev.step;
-  for (int t = 0; t < view.along_size(); ++t) {
-    for (int k = gap; k < depth; ++k) {
-      float v, g = 0.0f;
-      if (!view.Get(frame.value, k, t, true, &v)) continue;
-      view.Get(frame.grad, k, t, true, &g);
-      ++n;
-      bright += v > bright_level ? 1 : 0;
-      textured += (k > gap && g > texture_level) ? 1 : 0;
-    }
-  }
-  ev.bright = n ? static_cast<double>(bright) / n : 0.0;
-  // The whole half-plane to the image border (every other pixel): a blade blocks all of it,
-  // so brightness far beyond means either a second exposure or no blade at all.
-  int nf = 0, bf = 0;
-  for (int t = 0; t < view.along_size(); t += 2) {
-    for (int k = gap; k < view.across_size(); k += 2) {
-      float v;
-      if (!view.Get(frame.value, k, t, true, &v)) continue;
-      ++nf;
-      bf += v > bright_level ? 1 : 0;
-    }
-  }
-  ev.bright_far = nf ? static_cast<double>(bf) / nf : 0.0;
-  ev.texture = n ? static_cast<double>(textured) / n : 0.0;
+  // The blade blocks its whole half-plane: the outside strip is tested over the full length,
+  // and the whole half-plane to the image border (every other pixel), where brightness far
+  // beyond means either a second exposure or no blade at all.
+  const BeyondCounts c = beyond(ev.outside + 0.5 * ev.step, 0.15 * ev.step);
+  ev.bright = c.n ? static_cast<double>(c.bright) / c.n : 0.0;
+  ev.bright_far = c.nf ? static_cast<double>(c.bf) / c.nf : 0.0;
+  ev.texture = c.n ? static_cast<double>(c.textured) / c.n : 0.0;
   const double rel = ev.step / std::max(1e-9, range);
   // Support counts most: a line at a slightly wrong angle still has a partial step, and only
   // a steep penalty lets the true angle win.
