@@ -35,6 +35,7 @@ struct Segmentation {
   double noise = 0.0;       // robust sigma of R in direct exposure, working resolution
   double tissue_level = 0.0;  // median R of the tissue class
   int markers_removed = 0;
+  double step = 0.0;        // border step of the best direct-exposure candidate, noise units
 };
 
 Working MakeWorking(const Image& image, const FieldMeasurement& field,

@@ -71,6 +71,34 @@ double OtsuThreshold(const std::vector<float>& v) {
   return lo + (best_i + 1) * (hi - lo) / 255.0;
 }
 
+// Two-threshold Otsu (three classes; Liao, Chen and Chung 2001, "A fast algorithm for
+// multilevel thresholding") on a 128-bin histogram between the 0.5 and 99.5 percentiles.
+// Returns the lower of the two thresholds: on attenuations, the values below it are the least
+// attenuated class (direct exposure beside soft tissue and bone, or beside tissue and metal).
+double LowerOtsu3Threshold(const std::vector<float>& v) {
+  double lo = Quantile(v, 0.005);
+  double hi = Quantile(v, 0.995);
+  if (!(hi > lo)) return hi;
+  constexpr int kBins = 128;
+  std::vector<double> p(kBins + 1, 0.0), s(kBins + 1, 0.0);  // prefix mass and first moment
+  std::vector<double> hist(kBins, 0.0);
+  for (float x : v) hist[std::clamp(static_cast<int>((x - lo) / (hi - lo) * (kBins - 1)), 0, kBins - 1)] += 1.0;
+  for (int i = 0; i < kBins; ++i) { p[i + 1] = p[i] + hist[i]; s[i + 1] = s[i] + i * hist[i]; }
+  auto between = [&](int a, int b) {  // bins [a, b): w * mean^2
+    double w = p[b] - p[a];
+    return w > 0.0 ? (s[b] - s[a]) * (s[b] - s[a]) / w : 0.0;
+  };
+  double best = -1.0;
+  int best_i = kBins / 3;
+  for (int i = 1; i < kBins - 1; ++i) {
+    for (int j = i + 1; j < kBins; ++j) {
+      double score = between(0, i) + between(i, j) + between(j, kBins);
+      if (score > best) { best = score; best_i = i; }
+    }
+  }
+  return lo + best_i * (hi - lo) / (kBins - 1);
+}
+
 // Least-squares plane through the direct-exposure level, one pass of outlier rejection.
 // A plane, not a higher order: it follows the heel effect yet never runs away outside the
 // sampled area.
@@ -150,6 +178,7 @@ cv::Mat RemoveMetal(const Working& w, Segmentation& s, const cv::Mat& direct, do
   }
   std::vector<float> body = largest ? Values(s.residual, labels == largest) : std::vector<float>{};
   double body_median = Median(body);
+  int thin_radius = std::max(2, static_cast<int>(std::lround(5.0 * std::sqrt(min_px / 10.0))));
   double body_p90 = Quantile(body, 0.9);
   for (int i = 1; i < n; ++i) {
     int area = stats.at<int>(i, cv::CC_STAT_AREA);
@@ -159,7 +188,12 @@ cv::Mat RemoveMetal(const Working& w, Segmentation& s, const cv::Mat& direct, do
     double blob_r = Median(Values(s.residual, blob));
     // Lead is darker than the patient's typical tissue whatever the processing; a loose bit of
     // soft tissue is lighter.
-    bool dark = blob_log < cut || blob_r > 1.5 * body_p90 || blob_r > body_median;
+    // Lead letters are strokes a few mm wide: a 10 mm opening removes them, not a finger or
+    // a thumb cut off from the hand by the segmentation.
+    cv::Mat opened;
+    cv::morphologyEx(blob, opened, cv::MORPH_OPEN, Disk(thin_radius));
+    bool thin = cv::countNonZero(opened) == 0;
+    bool dark = blob_log < cut || blob_r > 1.5 * body_p90 || (thin && blob_r > body_median);
     if (!dark || DirectShareAround(blob, w.field, direct) < 0.6) continue;
     metal |= blob;
   }
@@ -197,7 +231,7 @@ cv::Mat GrowDirect(const Working& w, const Segmentation& s, const cv::Mat& seeds
     }
   }
   double step = std::max(4.0 * RobustSigma(diffs), 0.05 * s.tissue_level);
-  double bound = 0.6 * s.tissue_level;
+  double bound = std::min(0.6 * s.tissue_level, 2.0 * s.threshold);
   cv::Mat grown = seeds.clone();
   std::vector<cv::Point> queue;
   cv::findNonZero(seeds, queue);
@@ -242,6 +276,77 @@ bool IsFlat(const Working& w) {
   return spread < 3.0 * std::max(noise, 1e-9);
 }
 
+
+// Pixel-to-pixel noise of the working image inside the field: robust spread of horizontal
+// neighbour differences / sqrt(2). Smooth shading and anatomy barely change it.
+double PixelNoise(const Working& w) {
+  std::vector<float> diff;
+  for (int y = 0; y < w.log.rows; ++y) {
+    const float* l = w.log.ptr<float>(y);
+    const uchar* m = w.field.ptr<uchar>(y);
+    for (int x = 0; x + 1 < w.log.cols; ++x) {
+      if (m[x] && m[x + 1]) diff.push_back(l[x + 1] - l[x]);
+    }
+  }
+  return RobustSigma(diff) / std::sqrt(2.0);
+}
+
+// A candidate direct-exposure mask with its plane, attenuation and the step at its border.
+struct Candidate {
+  cv::Mat mask;
+  std::array<double, 6> surface{};
+  cv::Mat residual;
+  double noise = 0.0;    // robust sigma of the attenuation inside the mask
+  double step = 0.0;     // rise of the attenuation just outside the mask, in units of noise
+  bool patient = false;  // something wider than lead strokes or a plate lies outside the mask
+  bool touches_edge = false;
+  int area = 0;
+};
+
+// The skin line is a step: 1-3 mm outside direct exposure the attenuation has already risen
+// far above the noise. Splitting tissue from tissue leaves no such step (the thickness varies
+// continuously), and a split that only cuts out markers or implants leaves nothing but thin
+// objects outside (a 10 mm opening removes lead letters, plates and screws, not a finger).
+Candidate Evaluate(const Working& w, const cv::Mat& mask, double pixel_noise, double working_mm) {
+  Candidate c;
+  c.mask = mask;
+  c.area = cv::countNonZero(mask);
+  c.surface = FitSurface(w.log, c.area > 0 ? mask : w.field);
+  c.residual = cv::Mat(w.log.size(), CV_32F);
+  for (int y = 0; y < w.log.rows; ++y) {
+    const float* l = w.log.ptr<float>(y);
+    float* r = c.residual.ptr<float>(y);
+    for (int x = 0; x < w.log.cols; ++x) r[x] = static_cast<float>(SurfaceAt(c.surface, x, y) - l[x]);
+  }
+  std::vector<float> in = Values(c.residual, mask);
+  c.noise = std::max(RobustSigma(in), pixel_noise);
+  cv::Mat near, far;
+  int r1 = std::max(1, static_cast<int>(std::lround(1.0 / working_mm)));
+  int r3 = std::max(r1 + 1, static_cast<int>(std::lround(3.0 / working_mm)));
+  cv::dilate(mask, near, Disk(r1));
+  cv::dilate(mask, far, Disk(r3));
+  cv::Mat ring = far & ~near & w.field;
+  if (cv::countNonZero(ring) >= 10 && c.noise > 0.0) {
+    c.step = (Median(Values(c.residual, ring)) - Median(in)) / c.noise;
+  }
+  cv::Mat outside = w.field & ~mask, opened;
+  int r5 = std::max(2, static_cast<int>(std::lround(5.0 / working_mm)));
+  cv::morphologyEx(outside, opened, cv::MORPH_OPEN, Disk(r5));
+  c.patient = cv::countNonZero(opened) > 0;
+  cv::Mat inner;
+  cv::erode(w.field, inner, Disk(1));
+  c.touches_edge = cv::countNonZero(mask & ~inner) >= 3;
+  return c;
+}
+
+constexpr double kMinStep = 4.5;  // attenuation step at the skin line, in noise units
+
+// Direct exposure: not a sliver, with a clear step at its border, beside a patient, and
+// reaching the field edge (air surrounds the patient) or large.
+bool Plausible(const Candidate& c, int field_px) {
+  return c.area >= std::max(20.0, 0.01 * field_px) && c.step >= kMinStep && c.patient &&
+         (c.touches_edge || c.area > 0.15 * field_px);
+}
 }  // namespace
 
 double SurfaceAt(const std::array<double, 6>& q, double x, double y) {
@@ -309,26 +414,26 @@ Segmentation Segment(const Working& w, const std::array<double, 2>& spacing, dou
   s.residual = cv::Mat::zeros(w.log.size(), CV_32F);
   int field_px = cv::countNonZero(w.field);
   if (field_px < 20) return s;
-  std::vector<float> values = Values(w.log, w.field);
-  double t = OtsuThreshold(values);
-  cv::Mat bright = (w.log > t) & w.field;
-  int bright_px = cv::countNonZero(bright);
-  s.surface = FitSurface(w.log, bright_px > 0 ? bright : w.field);
-  for (int y = 0; y < w.log.rows; ++y) {
-    const float* l = w.log.ptr<float>(y);
-    float* r = s.residual.ptr<float>(y);
-    for (int x = 0; x < w.log.cols; ++x) r[x] = static_cast<float>(SurfaceAt(s.surface, x, y) - l[x]);
-  }
-  s.noise = RobustSigma(Values(s.residual, bright));
-  s.tissue_level = Median(Values(s.residual, w.field & ~bright));
-  // Direct exposure: a bright class that is flat (narrow against the gap to the tissue),
-  // not a sliver, and reaching the field edge (air surrounds the patient) or large.
-  cv::Mat inner;
-  cv::erode(w.field, inner, Disk(1));
-  bool touches_edge = cv::countNonZero(bright & ~inner) >= 3;
-  s.direct_found = bright_px >= std::max(20.0, 0.01 * field_px) &&
-                   s.tissue_level > 6.0 * s.noise &&
-                   (touches_edge || bright_px > 0.15 * field_px);
+  const double pixel_noise = PixelNoise(w);
+  // Two candidates for the direct exposure: the bright class of a two-class split of the
+  // values, and the least attenuated class of a three-class split of the attenuation left by
+  // the first one's plane (which separates direct exposure from thin soft tissue where bone or
+  // metal would otherwise take the dark class alone). The purer three-class candidate is
+  // preferred when it is plausible; neither is taken when neither has a skin-line step.
+  cv::Mat bright = (w.log > OtsuThreshold(Values(w.log, w.field))) & w.field;
+  if (cv::countNonZero(bright) == 0) bright = w.field.clone();
+  Candidate two = Evaluate(w, bright, pixel_noise, working_mm);
+  cv::Mat least = (two.residual < LowerOtsu3Threshold(Values(two.residual, w.field))) & w.field;
+  Candidate three = Evaluate(w, least, pixel_noise, working_mm);
+  const Candidate* chosen = Plausible(three, field_px) ? &three
+                            : Plausible(two, field_px) ? &two : nullptr;
+  s.step = std::max(three.step, two.step);
+  s.direct_found = chosen != nullptr;
+  const Candidate& c = chosen ? *chosen : two;
+  s.surface = c.surface;
+  s.residual = c.residual;
+  s.noise = c.noise;
+  s.tissue_level = Median(Values(s.residual, w.field & ~c.mask));
   double min_px = std::max(4.0, 10.0 / (working_mm * working_mm));  // 10 mm2
   if (!s.direct_found) {
     // No direct exposure at all: the field lies within the body and the anatomy fills it,
