@@ -3,6 +3,7 @@
 // Not a test: it prints figures for docs/validation.md.
 //   bench_metrics [--count N] [--seed S] [--pixel-mm P] [--truth-field] [--verbose]
 #include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
@@ -116,9 +117,9 @@ void Diagnose(const Radiograph& g, const FieldMeasurement& field, const ImageRec
   std::array<double, 2> sp = *truth.pixel_spacing_mm;
   Working w = MakeWorking(g.pixels, field, sp, g.linear, 1.0);
   Segmentation s = anatomy_internal::Segment(w, sp, 1.0);
-  std::printf("%s linear %d direct %d noise %.4f tissue %.4f threshold %.4f markers %d\n",
+  std::printf("%s linear %d direct %d noise %.4f tissue %.4f threshold %.4f markers %d step %.1f\n",
               name.c_str(), g.linear, s.direct_found, s.noise, s.tissue_level, s.threshold,
-              s.markers_removed);
+              s.markers_removed, s.step);
   cv::Mat full(g.pixels.height(), g.pixels.width(), CV_32F, const_cast<float*>(g.pixels.data()));
   cv::Mat l;
   full.copyTo(l);
@@ -155,6 +156,8 @@ int main(int argc, char** argv) {
   SynthOptions options;
   options.pixel_mm = args.pixel_mm;
   Tally all;
+  double metrics_seconds = 0.0;  // ComputeMetrics (anatomy and the rest), wall clock
+  int timed = 0;
   std::map<std::string, Tally> by_situation;
   for (int i = 0; i < args.count; ++i) {
     if (args.only >= 0 && i != args.only) continue;
@@ -170,13 +173,34 @@ int main(int argc, char** argv) {
     rec.pixel_spacing_mm = img.truth.pixel_spacing_mm;
     rec.context = img.truth.context;
     rec.field = field;
+    auto t0 = std::chrono::steady_clock::now();
     ComputeMetrics(g, field, **rules, &rec);
+    metrics_seconds += std::chrono::duration<double>(std::chrono::steady_clock::now() - t0).count();
+    ++timed;
     Score(img.truth, rec, args.pixel_mm, all, args.verbose, img.name + " " + img.situation + " " +
           SynthBodyPartName(sc.body_part));
     Score(img.truth, rec, args.pixel_mm, by_situation[img.situation], false, "");
+    if (args.verbose && img.truth.pixel_spacing_mm) {
+      using namespace anatomy_internal;
+      Working w = MakeWorking(g.pixels, field, *img.truth.pixel_spacing_mm, g.linear, 1.0);
+      Segmentation s = anatomy_internal::Segment(w, *img.truth.pixel_spacing_mm, 1.0);
+      std::printf("  %s %s linear %d direct %d step %.1f\n", img.name.c_str(),
+                  img.situation.c_str(), g.linear, s.direct_found, s.step);
+    }
     if (args.only >= 0) {
       Diagnose(g, field, img.truth, rec, img.name);
       for (const auto& n : rec.notes) std::printf("note: %s\n", n.c_str());
+      auto sides = [](const std::vector<Side>& v) {
+        std::string t;
+        for (Side x : v) t += std::string(SideName(x)) + " ";
+        return t;
+      };
+      const AnatomyMeasurement& a = *rec.anatomy;
+      std::printf("at blade: %s| ends: %s| continuing: %s| cut off: %s| truth cut off: %s\n",
+                  sides(a.at_blade_sides).c_str(),
+                  a.ends ? sides({(*a.ends)[0], (*a.ends)[1]}).c_str() : "unknown ",
+                  a.continuing_end ? SideName(*a.continuing_end) : "none",
+                  sides(a.clipped_sides).c_str(), sides(img.truth.anatomy->clipped_sides).c_str());
     }
   }
   std::printf("bench_metrics: %d images, seed %llu, pixel %.2f mm, field from %s\n", args.count,
@@ -184,5 +208,6 @@ int main(int argc, char** argv) {
               args.truth_field ? "the truth" : "DetectField");
   for (const auto& [name, t] : by_situation) Report(name.c_str(), t);
   Report("ALL", all);
+  if (timed > 0) std::printf("metrics step: %.1f ms per image (mean of %d)\n", 1000.0 * metrics_seconds / timed, timed);
   return 0;
 }

@@ -19,7 +19,13 @@ struct AnatomyMeasurement {
   std::optional<std::array<Point2d, 4>> box_px;  // oriented along the field axes, clockwise
   Polygon hull_px;                               // convex hull of the anatomy
   std::optional<double> area_mm2;                // anatomy area inside the field
-  std::vector<Side> clipped_sides;               // anatomy runs into this blade edge
+  // Blade edges where the anatomy runs into the blade and the exam's rule does not expect the
+  // body to continue (a likely cut-off; docs/method.md, "Clipping"). FindAnatomy alone, without
+  // a rule, lists every edge of at_blade_sides; ComputeMetrics applies the rule.
+  std::vector<Side> clipped_sides;
+  std::vector<Side> at_blade_sides;               // anatomy runs into this blade edge (any exam)
+  std::optional<std::array<Side, 2>> ends;        // field sides across the anatomy's long axis
+  std::optional<Side> continuing_end;             // the end a limb or the neck runs through
   bool found = false;
 };
 

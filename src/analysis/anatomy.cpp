@@ -155,12 +155,13 @@ void RefineSides(const Refiner& r, double threshold, BoxExtents& e) {
   }
 }
 
-// A visible blade edge is clipped when tissue lies just past its penumbra over at least 3 mm
-// of its length, and the working segmentation agrees a little further in.
-std::vector<Side> ClippedSides(const FieldMeasurement& field, const Refiner& r,
-                               const std::vector<Blade>& blades, double threshold,
-                               const std::array<double, 2>& spacing) {
-  std::vector<Side> out;
+// Per visible blade edge, the longest run (mm, sampled every mm) along which tissue lies just
+// past the penumbra and the working segmentation agrees a little further in. The anatomy runs
+// into the blade where the run is at least 3 mm.
+std::array<int, 4> BladeRuns(const FieldMeasurement& field, const Refiner& r,
+                             const std::vector<Blade>& blades, double threshold,
+                             const std::array<double, 2>& spacing) {
+  std::array<int, 4> out{};
   const Working& w = r.w;
   cv::Mat tissue = r.s.direct_found ? cv::Mat(w.field & ~r.s.direct & ~r.s.metal) : w.field;
   double step_px = 1.0 / std::min(spacing[0], spacing[1]);  // 1 mm
@@ -188,9 +189,61 @@ std::vector<Side> ClippedSides(const FieldMeasurement& field, const Refiner& r,
       run = hit ? run + 1 : 0;
       best = std::max(best, run);
     }
-    if (best >= 3) out.push_back(b.side);
+    out[static_cast<int>(b.side)] = best;
   }
   return out;
+}
+
+constexpr int kMinRunMm = 3;
+
+// The field sides across the anatomy's long axis. The principal axis of the anatomy mask
+// (second moments) when the mask is clearly elongated and does not fill the field; otherwise
+// the structure tensor of the image over the anatomy (Bigun and Granlund 1987): bone cortices
+// and limb outlines run along the long axis, so the dominant gradient lies across it.
+std::optional<std::array<Side, 2>> EndsOf(const anatomy_internal::Segmentation& s,
+                                          const Working& w, double rotation_deg) {
+  cv::Moments m = cv::moments(s.anatomy, true);
+  if (m.m00 < 10.0) return std::nullopt;
+  double a = m.mu20 * w.fx * w.fx, b = m.mu11 * w.fx * w.fy, c = m.mu02 * w.fy * w.fy;
+  double half = std::sqrt(0.25 * (a - c) * (a - c) + b * b);
+  double l1 = 0.5 * (a + c) + half, l2 = 0.5 * (a + c) - half;
+  double theta = 0.5 * std::atan2(2.0 * b, a - c);
+  double fill = m.m00 / std::max(1, cv::countNonZero(w.field));
+  if (!(l1 >= 1.5 * std::max(l2, 1e-9)) || fill > 0.9) {
+    cv::Mat gx, gy;
+    cv::Sobel(w.log, gx, CV_32F, 1, 0);
+    cv::Sobel(w.log, gy, CV_32F, 0, 1);
+    double jxx = 0.0, jyy = 0.0, jxy = 0.0;
+    for (int y = 0; y < w.log.rows; ++y) {
+      const uchar* mk = s.anatomy.ptr<uchar>(y);
+      const float* px = gx.ptr<float>(y);
+      const float* py = gy.ptr<float>(y);
+      for (int x = 0; x < w.log.cols; ++x) {
+        if (!mk[x]) continue;
+        double u = px[x] / w.fx, v = py[x] / w.fy;
+        jxx += u * u; jyy += v * v; jxy += u * v;
+      }
+    }
+    double coherence = std::sqrt((jxx - jyy) * (jxx - jyy) + 4.0 * jxy * jxy) / std::max(jxx + jyy, 1e-12);
+    if (coherence < 0.15) return std::nullopt;
+    theta = 0.5 * std::atan2(2.0 * jxy, jxx - jyy) + 0.5 * 3.14159265358979323846;
+  }
+  double rel = theta - rotation_deg * 3.14159265358979323846 / 180.0;
+  if (std::fabs(std::cos(rel)) >= std::fabs(std::sin(rel))) {
+    return std::array<Side, 2>{Side::kLeft, Side::kRight};  // long axis along the field's u
+  }
+  return std::array<Side, 2>{Side::kTop, Side::kBottom};
+}
+
+// The end a limb or the neck runs through: the end with the longer tissue run along the blade,
+// if that run is at least 25 mm. Fingertips or toes cut by a blade give separate runs of about
+// 2 cm or less; a forearm, a leg or the neck one run of several centimetres.
+std::optional<Side> ContinuingEnd(const std::array<Side, 2>& ends, const std::array<int, 4>& runs) {
+  constexpr int kLimbRunMm = 25;
+  int k0 = static_cast<int>(ends[0]), k1 = static_cast<int>(ends[1]);
+  int k = runs[k0] >= runs[k1] ? k0 : k1;
+  if (runs[k] < kLimbRunMm) return std::nullopt;
+  return static_cast<Side>(k);
 }
 
 }  // namespace
@@ -220,7 +273,13 @@ AnatomyMeasurement FindAnatomy(const Image& image, const FieldMeasurement& field
   cv::dilate(s.anatomy, r.near, cv::getStructuringElement(cv::MORPH_ELLIPSE, cv::Size(7, 7)));
   double threshold = s.threshold;
   if (s.direct_found) threshold = std::max(s.threshold, 5.0 * FullResolutionNoise(r));
-  std::vector<Side> clipped = ClippedSides(field, r, r.blades, threshold, spacing);
+  std::array<int, 4> runs = BladeRuns(field, r, r.blades, threshold, spacing);
+  std::vector<Side> clipped;
+  for (Side side : kAllSides) {
+    if (runs[static_cast<int>(side)] >= kMinRunMm) clipped.push_back(side);
+  }
+  out.ends = EndsOf(s, w, field.rotation_deg);
+  if (out.ends) out.continuing_end = ContinuingEnd(*out.ends, runs);
   if (options.refine && s.direct_found && threshold < 0.8 * s.tissue_level) {
     RefineSides(r, threshold, e);
   }
@@ -241,7 +300,8 @@ AnatomyMeasurement FindAnatomy(const Image& image, const FieldMeasurement& field
   double px_mm2 = w.fx * w.fy * spacing[0] * spacing[1];
   out.area_mm2 = s.direct_found ? cv::countNonZero(s.anatomy) * px_mm2
                                 : (field.area_mm2 ? *field.area_mm2 : field.area_px * spacing[0] * spacing[1]);
-  out.clipped_sides = clipped;
+  out.at_blade_sides = clipped;
+  out.clipped_sides = clipped;  // no rule here: every edge the anatomy runs into
   if (!context.spacing_mm) out.area_mm2.reset();
   return out;
 }

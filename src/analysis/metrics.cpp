@@ -46,6 +46,8 @@ void ComputeMetrics(const Radiograph& radiograph, const FieldMeasurement& field,
 
   AnatomyContext context{spacing, radiograph.linear};
   record->anatomy = FindAnatomy(radiograph.pixels, field, context, {}, &record->notes);
+  AnatomyMeasurement& a = *record->anatomy;
+  a.clipped_sides = CutOffSides(a.at_blade_sides, a.ends, a.continuing_end, rule);
   record->excess = ComputeExcess(field, *record->anatomy, spacing, magnification, rule.margin_mm);
   record->receptor = ComputeReceptor(field, radiograph.pixels.height(), radiograph.pixels.width(),
                                      spacing, h.detector_active_dimensions_mm, sid);

@@ -3,10 +3,12 @@
 #include "beamtrim/rules.h"
 
 #include <algorithm>
+#include <array>
 #include <cctype>
 #include <cmath>
 #include <cstring>
 #include <fstream>
+#include <optional>
 #include <sstream>
 #include <variant>
 
@@ -150,7 +152,11 @@ struct RuleError {
 const std::vector<std::string> kRuleKeys = {"name",        "body_parts",
                                             "views",       "margin_mm",
                                             "max_excess_fraction", "require_all_borders",
-                                            "clipped_sides_allowed", "note"};
+                                            "clipped_sides_allowed", "continues_through",
+                                            "note"};
+constexpr std::array<Continuation, 4> kContinuations = {
+    Continuation::kNone, Continuation::kOneEnd, Continuation::kBothEnds, Continuation::kAllSides};
+
 const std::vector<std::string> kTopKeys = {"schema", "version", "source", "default", "rules"};
 
 JsonPath With(JsonPath path, PathStep step) {
@@ -232,6 +238,19 @@ void ReadRule(const json& j, const JsonPath& path, Rule* rule) {
     }
     rule->clipped_sides_allowed = v.get<int>();
   }
+  if (j.contains("continues_through")) {
+    const json& v = j["continues_through"];
+    std::optional<Continuation> c;
+    for (Continuation k : kContinuations) {
+      if (v.is_string() && v.get<std::string>() == ContinuationName(k)) c = k;
+    }
+    if (!c) {
+      throw RuleError{With(path, "continues_through"),
+                      "must be \"none\", \"one end\", \"both ends\" or \"all sides\" (found " +
+                          v.dump() + ")"};
+    }
+    rule->continues_through = *c;
+  }
   if (j.contains("note")) {
     if (!j["note"].is_string()) throw RuleError{With(path, "note"), "must be a text"};
     rule->note = j["note"].get<std::string>();
@@ -243,6 +262,34 @@ bool Matches(const std::vector<std::string>& names, const std::string& value) {
 }
 
 }  // namespace
+
+const char* ContinuationName(Continuation c) {
+  switch (c) {
+    case Continuation::kOneEnd: return "one end";
+    case Continuation::kBothEnds: return "both ends";
+    case Continuation::kAllSides: return "all sides";
+    case Continuation::kNone: break;
+  }
+  return "none";
+}
+
+std::vector<Side> CutOffSides(const std::vector<Side>& at_blade,
+                              const std::optional<std::array<Side, 2>>& ends,
+                              std::optional<Side> continuing_end, const Rule& rule) {
+  std::vector<Side> out;
+  for (Side side : at_blade) {
+    bool is_end = ends && ((*ends)[0] == side || (*ends)[1] == side);
+    bool continues = false;
+    switch (rule.continues_through) {
+      case Continuation::kAllSides: continues = true; break;
+      case Continuation::kBothEnds: continues = is_end; break;
+      case Continuation::kOneEnd: continues = is_end && continuing_end == side; break;
+      case Continuation::kNone: break;
+    }
+    if (!continues) out.push_back(side);
+  }
+  return out;
+}
 
 const Rule& RuleSet::Find(std::string_view body_part, std::string_view view) const {
   std::string part = Upper(body_part);

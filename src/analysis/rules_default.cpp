@@ -18,8 +18,9 @@ std::string_view DefaultRulesJson() {
     "margin_mm": 10,
     "max_excess_fraction": 0.30,
     "require_all_borders": true,
-    "clipped_sides_allowed": 2,
-    "note": "any exam without a rule of its own; a limb may run through two blade edges"
+    "clipped_sides_allowed": 0,
+    "continues_through": "both ends",
+    "note": "any exam without a rule of its own: a limb or the trunk may run through the two blade edges across its long axis; anatomy at the other edges is a likely cut-off"
   },
   "rules": [
     {
@@ -27,30 +28,40 @@ std::string_view DefaultRulesJson() {
       "body_parts": ["HAND", "FINGER", "WRIST"],
       "margin_mm": 5,
       "max_excess_fraction": 0.25,
-      "clipped_sides_allowed": 1,
-      "note": "the forearm may run through one blade edge; fingers must not be cut off"
+      "continues_through": "one end",
+      "note": "the forearm runs through one end; fingers and the sides of the hand must not be cut off"
     },
     {
-      "name": "foot and ankle",
-      "body_parts": ["FOOT", "TOE", "ANKLE", "HEEL"],
+      "name": "foot",
+      "body_parts": ["FOOT", "TOE", "HEEL"],
       "margin_mm": 5,
       "max_excess_fraction": 0.25,
-      "clipped_sides_allowed": 1,
-      "note": "the leg may run through one blade edge; toes must not be cut off"
+      "continues_through": "none",
+      "note": "the whole foot, toes to heel, belongs inside the field; the leg lies over the hindfoot, not beyond a blade"
+    },
+    {
+      "name": "ankle",
+      "body_parts": ["ANKLE"],
+      "margin_mm": 5,
+      "max_excess_fraction": 0.25,
+      "continues_through": "one end",
+      "note": "the leg runs through one end; the heel and the sides must not be cut off"
     },
     {
       "name": "limb",
       "body_parts": ["ELBOW", "FOREARM", "ARM", "KNEE", "LEG", "THIGH", "EXTREMITY"],
       "margin_mm": 10,
       "max_excess_fraction": 0.30,
-      "clipped_sides_allowed": 2
+      "continues_through": "both ends",
+      "note": "the limb runs through both ends; its sides must not be cut off"
     },
     {
       "name": "shoulder and hip",
       "body_parts": ["SHOULDER", "CLAVICLE", "HIP"],
       "margin_mm": 10,
       "max_excess_fraction": 0.30,
-      "clipped_sides_allowed": 3
+      "continues_through": "all sides",
+      "note": "the trunk and the limb both leave the field; cut-off cannot be judged from the body outline"
     },
     {
       "name": "chest lateral",
@@ -58,14 +69,14 @@ std::string_view DefaultRulesJson() {
       "views": ["LL", "RL", "LATERAL", "LAT"],
       "margin_mm": 10,
       "max_excess_fraction": 0.30,
-      "clipped_sides_allowed": 4
+      "continues_through": "all sides"
     },
     {
       "name": "chest",
       "body_parts": ["CHEST"],
       "margin_mm": 10,
       "max_excess_fraction": 0.25,
-      "clipped_sides_allowed": 4,
+      "continues_through": "all sides",
       "note": "the trunk is usually wider than the field; the lungs cannot be told from the rest"
     },
     {
@@ -73,15 +84,16 @@ std::string_view DefaultRulesJson() {
       "body_parts": ["ABDOMEN", "PELVIS", "SPINE", "CSPINE", "TSPINE", "LSPINE", "SSPINE"],
       "margin_mm": 10,
       "max_excess_fraction": 0.30,
-      "clipped_sides_allowed": 4
+      "continues_through": "all sides",
+      "note": "the field normally lies within the body; cut-off of the organs cannot be judged from the body outline"
     },
     {
       "name": "skull",
       "body_parts": ["SKULL", "HEAD"],
       "margin_mm": 10,
       "max_excess_fraction": 0.30,
-      "clipped_sides_allowed": 1,
-      "note": "the neck may run through one blade edge"
+      "continues_through": "one end",
+      "note": "the neck runs through one end; the vault and the sides must not be cut off"
     }
   ]
 }

@@ -104,16 +104,34 @@ void JudgeExcess(const ImageRecord& r, const Rule& rule, bool partial, Findings&
   }
 }
 
+// A record read back from JSON keeps only clipped_sides (already judged under its rule); a
+// fresh measurement is judged here under `rule` from the edges the anatomy runs into.
 void JudgeClipping(const AnatomyMeasurement& a, const Rule& rule, Findings& out) {
-  size_t n = a.clipped_sides.size();
+  std::vector<Side> cut = a.at_blade_sides.empty()
+                              ? a.clipped_sides
+                              : CutOffSides(a.at_blade_sides, a.ends, a.continuing_end, rule);
+  std::vector<Side> through;  // edges the body is expected to run through for this exam
+  for (Side side : a.at_blade_sides) {
+    if (std::find(cut.begin(), cut.end(), side) == cut.end()) through.push_back(side);
+  }
+  if (!through.empty()) {
+    std::string text = "the body runs through the " + JoinSides(through) + " blade " +
+                       Plural(through.size(), "edge", "edges") + ", as expected for this exam";
+    if (rule.continues_through == Continuation::kAllSides) {
+      text += " (whether the organs the exam needs were cut off cannot be judged from the body "
+              "outline)";
+    }
+    out.info.push_back(text);
+  }
+  size_t n = cut.size();
   if (n == 0) return;
-  std::string text = "the anatomy runs into the " + JoinSides(a.clipped_sides) + " blade " +
-                     Plural(n, "edge", "edges");
+  std::string text = "the anatomy runs into the " + JoinSides(cut) + " blade " +
+                     Plural(n, "edge", "edges") + " where this exam expects it to end inside the field";
   if (static_cast<int>(n) > rule.clipped_sides_allowed) {
-    out.review.push_back(text + " (this exam allows " + std::to_string(rule.clipped_sides_allowed) +
-                         "): possible cut-off of needed anatomy, a repeat risk");
+    out.review.push_back(text + ": possible cut-off of needed anatomy, a repeat risk");
   } else {
-    out.info.push_back(text + " (allowed for this exam)");
+    out.info.push_back(text + " (this exam tolerates " + std::to_string(rule.clipped_sides_allowed) +
+                       ")");
   }
 }
 

@@ -6,6 +6,7 @@
 #include <cmath>
 #include <cstdint>
 
+#include "beamtrim/rules.h"
 #include "synth/model.h"
 #include "synth/phantom.h"
 #include "synth/synth_internal.h"
@@ -233,7 +234,33 @@ AnatomyTruth AnatomyOf(const SynthScenario& sc, const FieldGeometry& g,
       }
       if (beyond) break;
     }
-    if (beyond) t.anatomy.clipped_sides.push_back(side);
+    if (beyond) t.anatomy.at_blade_sides.push_back(side);
+  }
+  // Every phantom is built with its long axis along its own +y, the limb or neck that leaves
+  // the region (forearm, neck) towards +y; the foot phantom has no leg and ends at the heel.
+  // The axis direction (-sin a, cos a) in the field frame gives the ends and the continuing end
+  // (the definition of docs/method.md "Clipping", from the geometry instead of the pixels).
+  double rel = (sc.anatomy_rotation_deg - sc.rotation_deg) * kPi / 180.0;
+  double along_u = -std::sin(rel), along_v = std::cos(rel);
+  if (std::fabs(along_v) >= std::fabs(along_u)) {
+    t.anatomy.ends = std::array<Side, 2>{Side::kTop, Side::kBottom};
+    t.anatomy.continuing_end = along_v > 0 ? Side::kBottom : Side::kTop;
+  } else {
+    t.anatomy.ends = std::array<Side, 2>{Side::kLeft, Side::kRight};
+    t.anatomy.continuing_end = along_u > 0 ? Side::kRight : Side::kLeft;
+  }
+  if (sc.body_part == SynthBodyPart::kFoot) t.anatomy.continuing_end.reset();
+  // The shipped default rules say, per exam, which edges the body is expected to run through.
+  static const std::shared_ptr<const RuleSet> rules = [] {
+    auto loaded = RuleSet::Parse(DefaultRulesJson(), "built-in defaults");
+    return loaded.ok() ? *loaded : nullptr;
+  }();
+  if (rules) {
+    const Rule& rule = rules->Find(SynthBodyPartName(sc.body_part), sc.view);
+    t.anatomy.clipped_sides = CutOffSides(t.anatomy.at_blade_sides, t.anatomy.ends,
+                                          t.anatomy.continuing_end, rule);
+  } else {
+    t.anatomy.clipped_sides = t.anatomy.at_blade_sides;
   }
   return t;
 }

@@ -4,9 +4,11 @@
 
 #include <cmath>
 #include <random>
+#include <vector>
 
 #include "analysis/metrics_test_util.h"
 #include "beamtrim/anatomy.h"
+#include "beamtrim/rules.h"
 
 using namespace beamtrim;
 using namespace beamtrim::testing;
@@ -26,6 +28,8 @@ struct Scene {
   bool marker = false;                 // lead marker square in the direct exposure
   double marker_u = 110, marker_v = -80, marker_half = 10;
   double noise = 0.02;                 // relative quantum noise
+  // More ellipses {u, v, a, b, mu} in the field frame, attenuating like the first one.
+  std::vector<std::array<double, 5>> extra;
 };
 
 // Linear exposure: open field 1000, blocked 5 %, the anatomy attenuates exp(-mu sqrt(1 - r^2)).
@@ -43,6 +47,11 @@ Image Render(const Scene& s, int w = 400, int h = 300) {
       double eu = (u - s.ax) / s.a, ev = (v - s.ay) / s.b;
       double rr = eu * eu + ev * ev;
       if (rr < 1.0) val *= std::exp(-s.mu * std::sqrt(1.0 - rr));
+      for (const auto& e : s.extra) {
+        double fu = (u - e[0]) / e[2], fv = (v - e[1]) / e[3];
+        double q = fu * fu + fv * fv;
+        if (q < 1.0) val *= std::exp(-e[4] * std::sqrt(1.0 - q));
+      }
       if (s.body_fills) val *= std::exp(-1.0 - 0.4 * std::sin(x * 0.05) * std::cos(y * 0.07));
       if (s.marker && std::fabs(u - s.marker_u) < s.marker_half &&
           std::fabs(v - s.marker_v) < s.marker_half) {
@@ -178,4 +187,128 @@ TEST_CASE("NoFieldGivesNoAnatomy") {
   Image img(50, 40, 100.0f);
   FieldMeasurement none;
   CHECK_FALSE(FindAnatomy(img, none, AnatomyContext{}).found);
+}
+
+// ---- Direct exposure beside thin tissue and metal ------------------------------------------
+
+TEST_CASE("ThinSoftTissueBesideDenseBoneIsAnatomy") {
+  // Synthetic ground truth: a thin soft-tissue ellipse (log attenuation 0.3 at its centre)
+  // holding a dense bone (2.5 more). A two-class split puts the soft tissue with the direct
+  // exposure; the box must still be the soft tissue's outline.
+  for (bool linear : {true, false}) {
+    CAPTURE(linear);
+    Scene s;
+    s.mu = 0.3;
+    s.extra = {{0, 0, 20, 12, 2.5}};
+    Image img = Render(s);
+    if (!linear) {
+      for (int y = 0; y < img.height(); ++y) {
+        for (int x = 0; x < img.width(); ++x) img.at(x, y) = std::log(img.at(x, y));
+      }
+    }
+    FieldMeasurement f = MakeField(s.cx, s.cy, s.hw, s.hh, s.rot, img.width(), img.height());
+    AnatomyContext ctx{std::array<double, 2>{kPixelMm, kPixelMm}, linear};
+    AnatomyMeasurement a = FindAnatomy(img, f, ctx);
+    REQUIRE(a.found);
+    CHECK(BoxErrorMm(a, TruthBox(s)) < 1.5);
+  }
+}
+
+TEST_CASE("FieldInsideTheBodyWithALeadMarkerIsAllAnatomy") {
+  // The marker is the darkest class; the rest of the field is tissue, not direct exposure.
+  Scene s;
+  s.body_fills = true;
+  s.marker = true;
+  Image img = Render(s);
+  AnatomyMeasurement a = Find(s, img);
+  REQUIRE(a.found);
+  Polygon field = MakeField(s.cx, s.cy, s.hw, s.hh, s.rot, 400, 300).polygon_px;
+  CHECK(BoxErrorMm(a, field) < 0.01);
+}
+
+TEST_CASE("DenseThumbApartFromTheHandIsNotTakenForALeadMarker") {
+  // A separate blob 24 px (12 mm) wide, denser than the main body: tissue, not a lead letter
+  // (strokes of a few mm). Synthetic ground truth: the box spans both ellipses.
+  Scene s;
+  s.extra = {{-95, 0, 24, 40, 2.0}};
+  Image img = Render(s);
+  AnatomyMeasurement a = Find(s, img);
+  REQUIRE(a.found);
+  auto c = RotatedBox(-119, s.a, -s.b, s.b, s.rot);
+  Polygon truth;
+  for (const Point2d& q : c) truth.push_back({q.x + s.cx, q.y + s.cy});
+  CHECK(BoxErrorMm(a, truth) < 1.5);
+}
+
+// ---- Clipping: ends of the long axis and cut-offs (docs/method.md, "Clipping") ------------
+
+namespace {
+
+bool Has(const std::vector<Side>& v, Side s) { return std::find(v.begin(), v.end(), s) != v.end(); }
+
+Rule RuleThrough(Continuation c) {
+  Rule r;
+  r.continues_through = c;
+  return r;
+}
+
+}  // namespace
+
+TEST_CASE("LimbRunningThroughBothEndsIsNotACutOffUnderALimbRule") {
+  // Synthetic ground truth: a limb (ellipse 80 x 400 px) longer than the field (220 px), at
+  // several field angles; it runs through the top and bottom blades and ends nowhere else.
+  for (double rot : {0.0, 20.0, -35.0}) {
+    CAPTURE(rot);
+    Scene s;
+    s.rot = rot;
+    s.a = 40;
+    s.b = 200;
+    AnatomyMeasurement a = Find(s, Render(s));
+    REQUIRE(a.found);
+    CHECK(a.at_blade_sides.size() == 2);
+    CHECK(Has(a.at_blade_sides, Side::kTop));
+    CHECK(Has(a.at_blade_sides, Side::kBottom));
+    REQUIRE(a.ends);
+    CHECK(Has({(*a.ends)[0], (*a.ends)[1]}, Side::kTop));
+    CHECK(Has({(*a.ends)[0], (*a.ends)[1]}, Side::kBottom));
+    CHECK(CutOffSides(a.at_blade_sides, a.ends, a.continuing_end,
+                      RuleThrough(Continuation::kBothEnds)).empty());
+    CHECK(CutOffSides(a.at_blade_sides, a.ends, a.continuing_end,
+                      RuleThrough(Continuation::kNone)).size() == 2);
+  }
+}
+
+TEST_CASE("LimbCutAlongItsSideIsACutOff") {
+  // The same limb moved right so that its side crosses the right blade (u = 150).
+  Scene s;
+  s.a = 40;
+  s.b = 200;
+  s.ax = 125;
+  AnatomyMeasurement a = Find(s, Render(s));
+  REQUIRE(a.found);
+  CHECK(Has(a.at_blade_sides, Side::kRight));
+  std::vector<Side> cut = CutOffSides(a.at_blade_sides, a.ends, a.continuing_end,
+                                      RuleThrough(Continuation::kBothEnds));
+  CHECK(cut == std::vector<Side>{Side::kRight});
+  CHECK(CutOffSides(a.at_blade_sides, a.ends, a.continuing_end,
+                    RuleThrough(Continuation::kAllSides)).empty());
+}
+
+TEST_CASE("FingertipsAtTheFarBladeAreACutOffTheForearmIsNot") {
+  // Synthetic ground truth, a hand in outline: a forearm (90 px wide) through the bottom
+  // blade, a palm, and four fingers (16 px wide) reaching past the top blade (v = -110).
+  Scene s;
+  s.a = 55;
+  s.b = 45;
+  s.ay = -20;
+  s.extra = {{0, 70, 45, 150, 1.2}};
+  for (double u : {-39.0, -13.0, 13.0, 39.0}) s.extra.push_back({u, -100, 8, 50, 0.8});
+  AnatomyMeasurement a = Find(s, Render(s));
+  REQUIRE(a.found);
+  CHECK(Has(a.at_blade_sides, Side::kTop));
+  CHECK(Has(a.at_blade_sides, Side::kBottom));
+  REQUIRE(a.continuing_end);
+  CHECK(*a.continuing_end == Side::kBottom);
+  CHECK(CutOffSides(a.at_blade_sides, a.ends, a.continuing_end,
+                    RuleThrough(Continuation::kOneEnd)) == std::vector<Side>{Side::kTop});
 }

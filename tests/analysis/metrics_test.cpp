@@ -198,9 +198,12 @@ TEST_CASE("VerdictNamesTheRuleAndGivesReasonsInPlainWords") {
   }
   CHECK(dose_caution);
 
-  // Anatomy cut off on two sides where the hand rule allows one.
+  // Anatomy at two blade edges, long axis unknown: for a hand both are likely cut-offs; for a
+  // chest the trunk is expected to run through every edge (rules "continues_through"; common
+  // practice, no single source).
   r.anatomy = BoxAnatomy(250, 550, 190, 410, 0.0);
-  r.anatomy->clipped_sides = {Side::kLeft, Side::kTop};
+  r.anatomy->at_blade_sides = {Side::kLeft, Side::kTop};
+  r.anatomy->clipped_sides = r.anatomy->at_blade_sides;
   r.excess = ComputeExcess(*r.field, *r.anatomy, std::array<double, 2>{0.2, 0.2}, 1.1, hand.margin_mm);
   v = Decide(r, hand);
   CHECK(v.outcome == "needs review");

@@ -144,3 +144,58 @@ TEST_CASE("RulesFileOnDiskLoads") {
   CHECK((*r)->origin() == file.string());
   std::filesystem::remove_all(dir);
 }
+
+TEST_CASE("ContinuesThroughIsReadAndABadValueIsNamed") {
+  auto r = RuleSet::Parse(
+      "{\"schema\": \"beamtrim.rules\", \"default\": {\"continues_through\": \"one end\"},\n"
+      "\"rules\": [{\"name\": \"x\", \"body_parts\": [\"KNEE\"]}]}",
+      "my-rules.json");
+  REQUIRE(r.ok());
+  CHECK((*r)->default_rule().continues_through == Continuation::kOneEnd);
+  CHECK((*r)->Find("KNEE", "").continues_through == Continuation::kOneEnd);  // inherited
+  // A file written before the key existed keeps the old meaning: every edge is a cut-off.
+  auto old = RuleSet::Parse("{\"schema\": \"beamtrim.rules\", \"default\": {}}", "old.json");
+  REQUIRE(old.ok());
+  CHECK((*old)->default_rule().continues_through == Continuation::kNone);
+
+  std::string bad = ErrorText(
+      "{\"schema\": \"beamtrim.rules\",\n\"default\": {\n\"continues_through\": \"top\"}}");
+  CHECK(bad.find("line 3") != std::string::npos);
+  CHECK(bad.find("default.continues_through") != std::string::npos);
+  CHECK(bad.find("\"both ends\"") != std::string::npos);
+}
+
+TEST_CASE("CutOffSidesLeavesOutTheEdgesTheBodyRunsThrough") {
+  // The definition in docs/method.md ("Clipping"; common practice, no single source): a
+  // table of cases worked by hand.
+  const std::vector<Side> all = {Side::kLeft, Side::kRight, Side::kTop, Side::kBottom};
+  const std::array<Side, 2> vertical = {Side::kTop, Side::kBottom};
+  Rule r;
+  r.continues_through = Continuation::kNone;
+  CHECK(CutOffSides(all, vertical, Side::kBottom, r) == all);
+  r.continues_through = Continuation::kAllSides;
+  CHECK(CutOffSides(all, vertical, Side::kBottom, r).empty());
+  r.continues_through = Continuation::kBothEnds;
+  CHECK(CutOffSides(all, vertical, Side::kBottom, r) == std::vector<Side>{Side::kLeft, Side::kRight});
+  r.continues_through = Continuation::kOneEnd;
+  CHECK(CutOffSides(all, vertical, Side::kBottom, r) ==
+        std::vector<Side>{Side::kLeft, Side::kRight, Side::kTop});
+  // No continuing end found (fingertips only): every edge of a hand is a cut-off.
+  CHECK(CutOffSides({Side::kTop}, vertical, std::nullopt, r) == std::vector<Side>{Side::kTop});
+  // Long axis unknown: only "all sides" exempts anything.
+  r.continues_through = Continuation::kBothEnds;
+  CHECK(CutOffSides({Side::kTop}, std::nullopt, std::nullopt, r) == std::vector<Side>{Side::kTop});
+}
+
+TEST_CASE("ShippedRulesSayWhichEdgesTheBodyRunsThrough") {
+  // Common practice, no single source: limbs through both ends, hand, foot and skull through
+  // one end, the trunk through every edge.
+  auto rules = LoadRules({});
+  REQUIRE(rules.ok());
+  CHECK((*rules)->Find("KNEE", "AP").continues_through == Continuation::kBothEnds);
+  CHECK((*rules)->Find("HAND", "PA").continues_through == Continuation::kOneEnd);
+  CHECK((*rules)->Find("SKULL", "PA").continues_through == Continuation::kOneEnd);
+  CHECK((*rules)->Find("CHEST", "PA").continues_through == Continuation::kAllSides);
+  CHECK((*rules)->Find("PELVIS", "AP").continues_through == Continuation::kAllSides);
+  CHECK(std::string(ContinuationName(Continuation::kBothEnds)) == "both ends");
+}

@@ -211,7 +211,7 @@ TEST_CASE("SituationFilterGivesThatKindOfPicture") {
           break;
         }
         case SynthSituation::kSmallField: CHECK(*f.area_mm2 <= 70.0 * 70.0 + 1e-6); break;
-        case SynthSituation::kTight: CHECK(!t.anatomy->clipped_sides.empty()); break;
+        case SynthSituation::kTight: CHECK(!t.anatomy->at_blade_sides.empty()); break;
         default: break;
       }
     }
