@@ -27,8 +27,16 @@ for b in "${which[@]}"; do
       if [[ "$quick" == 1 ]]; then "$build/bench_qc" --count 12 --seed 2026
       else "$build/bench_qc" --count 120 --seed 2026; fi ;;
     scan)
-      if [[ "$quick" == 1 ]]; then "$build/bench_scan" --small 40 --full 0 --threads 1
-      else "$build/bench_scan" --small 300 --full 0 --threads 1,2 --uncompressed 0; fi ;;
+      # The images are generated once into BENCH_SCAN_DIR and reused (fixed seed); the
+      # machine's load average is printed with every row, as the figures depend on it.
+      scan_dir="${BENCH_SCAN_DIR:-${TMPDIR:-/tmp}/beamtrim-bench-scan}"
+      uptime
+      if [[ "$quick" == 1 ]]; then
+        "$build/bench_scan" --dir "$scan_dir-quick" --small 40 --full 4 --threads 1 --stages 20
+      else
+        "$build/bench_scan" --dir "$scan_dir" --small 2000 --full 200 --threads 1,2 --stages 100
+      fi
+      uptime ;;
     *) echo "unknown benchmark: $b (field, metrics, qc, scan)" >&2; exit 2 ;;
   esac
 done
