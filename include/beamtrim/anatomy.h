@@ -27,8 +27,10 @@ struct AnatomyContext {
   bool linear = false;  // pixel values proportional to exposure (taken to the log domain)
 };
 
-// Fills found, box_px, hull_px, area_mm2 and clipped_sides. Sides that are not visible are
-// never reported as clipped. `notes` (optional) receives plain-language remarks.
+// Fills found, box_px, hull_px, area_mm2, at_blade_sides, ends and continuing_end; without a
+// rule, clipped_sides lists every edge of at_blade_sides (ComputeMetrics then keeps only the
+// cut-offs under the exam's rule, CutOffSides in rules.h). Sides that are not visible are never
+// reported at the blade. `notes` (optional) receives plain-language remarks.
 AnatomyMeasurement FindAnatomy(const Image& image, const FieldMeasurement& field,
                                const AnatomyContext& context, const AnatomyOptions& options = {},
                                std::vector<std::string>* notes = nullptr);
