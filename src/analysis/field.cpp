@@ -18,6 +18,8 @@ using namespace field_internal;
 namespace {
 
 constexpr double kDeg = M_PI / 180.0;
+// Offset added to linear values before the logarithm, as a share of the brightest exposure.
+constexpr double kLogOffset = 0.01;
 
 struct Prepared {
   WorkingImage working;
@@ -44,11 +46,16 @@ Prepared Prepare(const Image& image, const FieldContext& ctx, const FieldOptions
   wk.value = blocks.mean;
   if (*linear) {
     // Logarithm so that contrast is a ratio, whatever the dose; a floor keeps dead or
-    // offset-clipped pixels finite.
+    // offset-clipped pixels finite. The offset of 1 % of the brightest exposure compresses
+    // what lies far below it: under the blades, leakage, scatter and the off-focus halo fall
+    // from a few per cent of the open beam to a fraction of a per mille, a large fall on a
+    // pure logarithm (the halo's end looks like a second, stronger blade) but a negligible one
+    // in exposure, which is what a blade blocks.
     const double top = Percentile(wk.value, wk.valid, 99.9);
     if (top > 0.0) {
       wk.log_floor = 1e-4 * top;
       cv::max(wk.value, wk.log_floor, wk.value);
+      wk.value += kLogOffset * top;
       cv::log(wk.value, wk.value);
       wk.linear = true;
     } else {

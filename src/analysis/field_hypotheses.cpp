@@ -26,13 +26,17 @@ Side Opposite(Side s) {
 }
 
 // Along-edge span of a side: between the perpendicular blades found so far.
+// Stays clear of the perpendicular penumbrae by up to 3 working pixels, less on a field only a
+// few pixels across, which would otherwise be left with no span at all.
 Span SpanFor(const Rectangle& r, Side s, const Frame& f) {
-  const int gap = 3;
   Span span{0, Vertical(s) ? f.value.rows : f.value.cols};
   const auto& lo = r.sides[static_cast<int>(Vertical(s) ? Side::kTop : Side::kLeft)];
   const auto& hi = r.sides[static_cast<int>(Vertical(s) ? Side::kBottom : Side::kRight)];
-  if (lo) span.lo = static_cast<int>(lo->position) + gap;
-  if (hi) span.hi = static_cast<int>(hi->position) - gap;
+  if (lo) span.lo = static_cast<int>(lo->position);
+  if (hi) span.hi = static_cast<int>(hi->position);
+  const int gap = std::clamp((span.hi - span.lo) / 4, 0, 3);
+  if (lo) span.lo += gap;
+  if (hi) span.hi -= gap;
   if (span.hi <= span.lo) span = {span.lo - gap, span.hi + gap};
   return span;
 }
@@ -64,6 +68,28 @@ void DropInconsistent(Rectangle& r) {
   }
 }
 
+// The sides chosen early in a pass were measured before their perpendicular neighbours were
+// known, so their levels include the corners, where two blades overlap; the consistency test
+// must compare every side over the span its neighbours leave. A side that is no blade over
+// that span (too short, for a tiny field) keeps its first evidence with the levels measured
+// there: the bounded tests decide on it later.
+void MeasureWithinNeighbours(const Frame& frame, double range, double depth_px, Rectangle& r) {
+  std::array<std::optional<SideEvidence>, 4> measured = r.sides;
+  for (Side s : kAllSides) {
+    auto& slot = measured[static_cast<int>(s)];
+    if (!slot) continue;
+    SideEvidence ev = EvaluateSide(frame, s, static_cast<int>(slot->position), SpanFor(r, s, frame),
+                                   range, depth_px, false);
+    if (ev.blade) {
+      slot = ev;
+    } else if (ev.step > 0.0) {
+      slot->outside = ev.outside;
+      slot->inside = ev.inside;
+    }
+  }
+  r.sides = measured;
+}
+
 }  // namespace
 
 Rectangle BestRectangle(const Frame& frame, double range, double depth_px) {
@@ -87,6 +113,7 @@ Rectangle BestRectangle(const Frame& frame, double range, double depth_px) {
       changed |= differs;
       slot = best;
     }
+    MeasureWithinNeighbours(frame, range, depth_px, r);
     DropInconsistent(r);
     if (!changed && pass > 0) break;
   }

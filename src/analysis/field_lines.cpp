@@ -330,13 +330,17 @@ SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span
 
 SideEvidence JudgeSide(StripStats& st, const std::function<BeyondCounts(double, double)>& beyond,
                        int position, double range, double depth_px, bool bounded) {
-  // A blade edge runs at least a centimetre or so: shorter straight steps are objects.
-  const int min_length_px = std::max(3, static_cast<int>(std::lround(depth_px / 4.0)));
+  // A blade edge runs at least a centimetre or so: shorter straight steps are objects. Between
+  // known perpendicular blades (bounded) the whole span is the edge, however short the field.
   SideEvidence ev;
   ev.position = position;
   const std::vector<double>& outs = st.outs;
   const std::vector<double>& ins = st.ins;
   const std::vector<double>& diffs = st.diffs;
+  int min_length_px = std::max(3, static_cast<int>(std::lround(depth_px / 4.0)));
+  if (bounded) {
+    min_length_px = std::max(3, std::min(min_length_px, static_cast<int>(diffs.size() * 3 / 4)));
+  }
   if (diffs.size() < 3) {
     ev.why_not = "edge too short";
     return ev;

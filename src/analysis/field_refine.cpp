@@ -167,7 +167,8 @@ ProfileSet SampleProfiles(const Image& image, const Line& line, Point2d a, Point
   const double step = 0.5;
   const int m = 2 * static_cast<int>(std::ceil(half / step)) + 1;
   const double h = 0.5 * (m - 1) * step;
-  const int count = std::clamp(static_cast<int>(len / 4.0), 2, 80);
+  // A profile every 4 px, and at least the three a line fit needs (a tiny field's side).
+  const int count = std::clamp(static_cast<int>(len / 4.0), 3, 80);
   const int tangential = std::clamp(factor / 4, 1, 3);
   auto is_valid = [&](double x, double y) {
     if (!valid || valid->empty()) return true;

@@ -224,3 +224,63 @@ TEST_CASE("WorkingFactorGivesAboutTwoMillimetrePixels") {
   ctx.spacing_mm.reset();
   CHECK(WorkingFactor(img, ctx, {}) == 8);  // unknown spacing: ~256 px on the long side
 }
+
+namespace {
+
+// A working image (log domain) with a blocked level of 0 and an open field of level `open`
+// over columns [x0, w) and rows [y0, y1); synthetic ground truth by construction.
+WorkingImage StepWorkingImage(int w, int h, int x0, int y0, int y1, float open) {
+  WorkingImage wk;
+  wk.value = cv::Mat1f(h, w, 0.0f);
+  wk.value(cv::Rect(x0, y0, w - x0, y1 - y0)).setTo(open);
+  wk.valid = cv::Mat1b(h, w, uchar(255));
+  wk.blanked = cv::Mat1b(h, w, uchar(0));
+  wk.lo = 0.0;
+  wk.hi = open;
+  wk.linear = true;
+  return wk;
+}
+
+cv::Mat1f GradientOf(const cv::Mat1f& v) {
+  cv::Mat1f gx, gy, g;
+  cv::Sobel(v, gx, CV_32F, 1, 0, 3, 1.0 / 8.0);
+  cv::Sobel(v, gy, CV_32F, 0, 1, 3, 1.0 / 8.0);
+  cv::magnitude(gx, gy, g);
+  return g;
+}
+
+}  // namespace
+
+TEST_CASE("StepSpanIsTheRunWhereTheSideHasItsStep") {
+  // A small field: its left blade shows a step only between its top and bottom blades (rows
+  // 15 to 35); above and below, both sides of that line are blocked.
+  WorkingImage wk = StepWorkingImage(60, 60, 20, 15, 35, 3.0f);
+  Frame f = MakeFrame(wk, GradientOf(wk.value), 0.0);
+  const std::vector<int> cands = SideCandidates(f, Side::kLeft, {0, 60}, 3);
+  REQUIRE(!cands.empty());
+  CHECK(std::abs(cands[0] - 20) <= 1);
+  const Span run = StepSpan(f, Side::kLeft, cands[0], {0, 60});
+  CHECK(std::abs(run.lo - 15) <= 1);
+  CHECK(std::abs(run.hi - 35) <= 1);
+  // Tested over that run the side is a blade; over the whole image height it is diluted.
+  const SideEvidence on_run = EvaluateSide(f, Side::kLeft, cands[0], run, 3.0, 20.0);
+  CHECK(on_run.blade);
+  CHECK(on_run.step == doctest::Approx(3.0).epsilon(0.05));
+}
+
+TEST_CASE("CoverageCountsDenseAnatomyInsideTheEdge") {
+  // Left blade at column 20 over the whole height; inside, the lower half is dense anatomy
+  // (a third of the open level), still well above the blocked outside. Every row shows a
+  // blocked outside and a clear rise, so coverage stays near one; the support test (open
+  // inside) sees only the upper half and still passes.
+  WorkingImage wk = StepWorkingImage(60, 60, 20, 0, 60, 3.0f);
+  wk.value(cv::Rect(20, 30, 40, 30)).setTo(1.0f);
+  Frame f = MakeFrame(wk, GradientOf(wk.value), 0.0);
+  const SideEvidence ev = EvaluateSide(f, Side::kLeft, 20, {0, 60}, 3.0, 20.0, true);
+  CHECK(ev.coverage > 0.9);
+  CHECK(ev.blade);
+  // A line through the open field, where both sides are bright, has no blocked outside.
+  const SideEvidence inside = EvaluateSide(f, Side::kLeft, 40, {0, 60}, 3.0, 20.0, true);
+  CHECK_FALSE(inside.blade);
+  CHECK(inside.coverage < 0.1);
+}
