@@ -74,7 +74,9 @@ json AnatomyJson(const AnatomyMeasurement& a) {
           {"box_px", box},
           {"hull_px", PolygonJson(a.hull_px)},
           {"area_mm2", Opt(a.area_mm2)},
-          {"clipped_sides", SideListJson(a.clipped_sides)}};
+          {"clipped_sides", SideListJson(a.clipped_sides)},
+          {"at_blade_sides", SideListJson(a.at_blade_sides)},
+          {"continuing_end", a.continuing_end ? json(SideName(*a.continuing_end)) : json(nullptr)}};
 }
 
 json ExcessJson(const ExcessMeasurement& e) {
@@ -253,6 +255,11 @@ AnatomyMeasurement ParseAnatomy(const json& j) {
   if (j.contains("hull_px")) a.hull_px = ParsePolygon(j.at("hull_px"));
   a.area_mm2 = GetOpt<double>(j, "area_mm2");
   if (j.contains("clipped_sides")) a.clipped_sides = ParseSideList(j.at("clipped_sides"));
+  if (j.contains("at_blade_sides")) a.at_blade_sides = ParseSideList(j.at("at_blade_sides"));
+  if (j.contains("continuing_end") && !j.at("continuing_end").is_null()) {
+    const std::vector<Side> end = ParseSideList(json::array({j.at("continuing_end")}));
+    a.continuing_end = end.front();
+  }
   return a;
 }
 

@@ -219,10 +219,18 @@ TEST_CASE("SituationFilterGivesThatKindOfPicture") {
 }
 
 TEST_CASE("TruthRecordSurvivesTheJsonRoundTrip") {
-  ImageRecord t = ComputeTruth(RandomScenario(3, 3, Small(SynthSituation::kTypical)));
-  Result<ImageRecord> back = RecordFromJson(ToJson(t));
-  REQUIRE(back.ok());
-  CHECK(ToJsonLine(*back) == ToJsonLine(t));
+  // Tight fields put anatomy at a blade, so the anatomy's side lists are exercised too.
+  int with_sides = 0;
+  for (SynthSituation sit : {SynthSituation::kTypical, SynthSituation::kTight}) {
+    for (int i = 0; i < 6; ++i) {
+      ImageRecord t = ComputeTruth(RandomScenario(3, i, Small(sit)));
+      Result<ImageRecord> back = RecordFromJson(ToJson(t));
+      REQUIRE(back.ok());
+      CHECK(ToJsonLine(*back) == ToJsonLine(t));
+      if (t.anatomy && !t.anatomy->at_blade_sides.empty()) ++with_sides;
+    }
+  }
+  CHECK(with_sides > 0);
 }
 
 TEST_CASE("ClinicIsDeterministicAndUsesFictionalIdentities") {
