@@ -47,7 +47,10 @@ SideEvidence EvaluateSideReference(const Frame& frame, Side side, int position, 
     int no = s.out_n, ni = s.in_n;
     for (int k = gap - 1; no == 0 && k >= 1; --k) {
       float v;
-      if (view.Get(frame.value, k, t, true, &v)) { so += v; ++no; }
+      if (view.Get(frame.value, k, t, true, &v)) {
+        so += v;
+        ++no;
+      }
     }
     if (no == 0 || ni < band / 2) continue;
     st.outs.push_back(so / no);

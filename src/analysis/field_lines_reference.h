@@ -35,8 +35,14 @@ struct SideView {
     Strips s;
     for (int k = gap; k < gap + band; ++k) {
       float v;
-      if (Get(f.value, k, t, true, &v)) { s.out_sum += v; ++s.out_n; }
-      if (Get(f.value, k, t, false, &v)) { s.in_sum += v; ++s.in_n; }
+      if (Get(f.value, k, t, true, &v)) {
+        s.out_sum += v;
+        ++s.out_n;
+      }
+      if (Get(f.value, k, t, false, &v)) {
+        s.in_sum += v;
+        ++s.in_n;
+      }
     }
     return s;
   }
@@ -64,9 +70,8 @@ struct BeyondCounts {
 };
 // The decision part of EvaluateSide, shared by the fast kernel and the reference. `beyond`
 // is called once (when the side gets that far) with the bright and texture levels.
-SideEvidence JudgeSide(StripStats& stats,
-                       const std::function<BeyondCounts(double, double)>& beyond, int position,
-                       double range, double depth_px, bool bounded);
+SideEvidence JudgeSide(StripStats& stats, const std::function<BeyondCounts(double, double)>& beyond,
+                       int position, double range, double depth_px, bool bounded);
 
 // As SideCandidates and EvaluateSide (field_internal.h), pixel by pixel.
 std::vector<int> SideCandidatesReference(const Frame& frame, Side side, Span span, int count);

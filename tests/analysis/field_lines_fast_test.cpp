@@ -78,7 +78,8 @@ TEST_CASE("FastSideCandidatesEqualTheReferenceOnEverySideAndSpan") {
     for (double angle : {0.0, 6.5, -31.0}) {
       Frame f = MakeFrame(wk, grad, angle);
       for (Side side : kAllSides) {
-        const int along = (side == Side::kLeft || side == Side::kRight) ? f.value.rows : f.value.cols;
+        const int along =
+            (side == Side::kLeft || side == Side::kRight) ? f.value.rows : f.value.cols;
         for (Span span : {Span{0, along}, Span{5, along / 2}, Span{-3, along + 4}, Span{9, 4}}) {
           CAPTURE(seed);
           CAPTURE(angle);
