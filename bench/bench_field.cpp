@@ -217,9 +217,11 @@ int main(int argc, char** argv) {
   Print("all", rows);
   std::vector<double> ms_full, ms_small;
   for (const Row& r : rows) (r.full ? ms_full : ms_small).push_back(r.ms);
-  std::printf("analysis time per image, one core: median %.1f ms (0.5 mm images)", Pct(ms_small, 50));
+  std::printf("analysis time per image, one core:");
+  if (!ms_small.empty()) std::printf(" median %.1f ms (0.5 mm images)", Pct(ms_small, 50));
   if (!ms_full.empty()) {
-    std::printf(", median %.1f ms / max %.1f ms (full size)", Pct(ms_full, 50), Pct(ms_full, 100));
+    std::printf("%s median %.1f ms / max %.1f ms (full size)", ms_small.empty() ? "" : ",",
+                Pct(ms_full, 50), Pct(ms_full, 100));
   }
   std::printf("\n");
   return 0;
