@@ -109,6 +109,9 @@ struct Span {
 
 // Boundary positions with a polarity-consistent step, strongest first (at most `count`).
 std::vector<int> SideCandidates(const Frame& frame, Side side, Span span, int count);
+// The local maxima of the lightly smoothed step sums e[1..n-1] (e has n + 1 entries), largest
+// first, at most `count`: the last stage of SideCandidates, shared with its reference.
+std::vector<int> StrongestBoundaries(const std::vector<double>& e, int count);
 // The along-edge run over which a boundary shows a clear step (at least half of its strong
 // step, gaps of a few pixels bridged): before the perpendicular blades are known, a small
 // field's side covers only a short part of the image, and testing it over the whole image

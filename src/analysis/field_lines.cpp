@@ -207,6 +207,21 @@ std::vector<double> CandidateAngles(const WorkingImage& working, const cv::Mat1f
   return out;
 }
 
+std::vector<int> StrongestBoundaries(const std::vector<double>& e, int count) {
+  const int n = static_cast<int>(e.size()) - 1;
+  std::vector<double> smooth(e.size(), 0.0);
+  for (int p = 1; p < n; ++p) smooth[p] = 0.25 * e[p - 1] + 0.5 * e[p] + 0.25 * e[p + 1];
+  std::vector<int> peaks;
+  for (int p = 1; p < n; ++p) {
+    if (smooth[p] > 0.0 && smooth[p] >= smooth[p - 1] && smooth[p] >= smooth[p + 1]) {
+      peaks.push_back(p);
+    }
+  }
+  std::sort(peaks.begin(), peaks.end(), [&](int a, int b) { return smooth[a] > smooth[b]; });
+  if (static_cast<int>(peaks.size()) > count) peaks.resize(count);
+  return peaks;
+}
+
 std::vector<int> SideCandidates(const Frame& frame, Side side, Span span, int count) {
   const Strided px = StridedFor(frame, side);
   const int n = px.across;
@@ -222,17 +237,7 @@ std::vector<int> SideCandidates(const Frame& frame, Side side, Span span, int co
       e[p] += low_is_outside ? hi - lo : lo - hi;
     }
   }
-  std::vector<double> smooth(e.size(), 0.0);
-  for (int p = 1; p < n; ++p) smooth[p] = 0.25 * e[p - 1] + 0.5 * e[p] + 0.25 * e[p + 1];
-  std::vector<int> peaks;
-  for (int p = 1; p < n; ++p) {
-    if (smooth[p] > 0.0 && smooth[p] >= smooth[p - 1] && smooth[p] >= smooth[p + 1]) {
-      peaks.push_back(p);
-    }
-  }
-  std::sort(peaks.begin(), peaks.end(), [&](int a, int b) { return smooth[a] > smooth[b]; });
-  if (static_cast<int>(peaks.size()) > count) peaks.resize(count);
-  return peaks;
+  return StrongestBoundaries(e, count);
 }
 
 Span StepSpan(const Frame& frame, Side side, int position, Span span) {

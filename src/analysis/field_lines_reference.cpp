@@ -22,17 +22,7 @@ std::vector<int> SideCandidatesReference(const Frame& frame, Side side, Span spa
     }
     e[p] = sum;
   }
-  std::vector<double> smooth(e.size(), 0.0);
-  for (int p = 1; p < n; ++p) smooth[p] = 0.25 * e[p - 1] + 0.5 * e[p] + 0.25 * e[p + 1];
-  std::vector<int> peaks;
-  for (int p = 1; p < n; ++p) {
-    if (smooth[p] > 0.0 && smooth[p] >= smooth[p - 1] && smooth[p] >= smooth[p + 1]) {
-      peaks.push_back(p);
-    }
-  }
-  std::sort(peaks.begin(), peaks.end(), [&](int a, int b) { return smooth[a] > smooth[b]; });
-  if (static_cast<int>(peaks.size()) > count) peaks.resize(count);
-  return peaks;
+  return StrongestBoundaries(e, count);
 }
 
 SideEvidence EvaluateSideReference(const Frame& frame, Side side, int position, Span span,

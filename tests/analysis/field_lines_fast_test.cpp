@@ -13,6 +13,7 @@
 
 #include "analysis/field_internal.h"
 #include "analysis/field_lines_reference.h"
+#include "analysis/field_test_images.h"
 
 using namespace beamtrim;
 using namespace beamtrim::field_internal;
@@ -44,14 +45,6 @@ WorkingImage SyntheticWorking(int w, int h, unsigned seed) {
   return wk;
 }
 
-cv::Mat1f GradientMagnitude(const cv::Mat1f& value) {
-  cv::Mat1f gx, gy, mag;
-  cv::Sobel(value, gx, CV_32F, 1, 0, 3, 1.0 / 8.0);
-  cv::Sobel(value, gy, CV_32F, 0, 1, 3, 1.0 / 8.0);
-  cv::magnitude(gx, gy, mag);
-  return mag;
-}
-
 void CheckSame(const SideEvidence& fast, const SideEvidence& slow) {
   CHECK(fast.blade == slow.blade);
   CHECK(fast.position == slow.position);
@@ -74,7 +67,7 @@ TEST_CASE("FastSideCandidatesEqualTheReferenceOnEverySideAndSpan") {
   // Reference: SideCandidatesReference, the per-pixel loop (project rule: fast vs slow).
   for (unsigned seed : {1u, 2u}) {
     WorkingImage wk = SyntheticWorking(61, 47, seed);
-    cv::Mat1f grad = GradientMagnitude(wk.value);
+    cv::Mat1f grad = testimg::GradientMagnitude(wk.value);
     for (double angle : {0.0, 6.5, -31.0}) {
       Frame f = MakeFrame(wk, grad, angle);
       for (Side side : kAllSides) {
@@ -97,7 +90,7 @@ TEST_CASE("FastEvaluateSideEqualsTheReferenceAtEveryPosition") {
   int blades = 0, evaluated = 0;
   for (unsigned seed : {3u, 4u}) {
     WorkingImage wk = SyntheticWorking(57, 44, seed);
-    cv::Mat1f grad = GradientMagnitude(wk.value);
+    cv::Mat1f grad = testimg::GradientMagnitude(wk.value);
     for (double angle : {0.0, -12.0, 40.0}) {
       Frame f = MakeFrame(wk, grad, angle);
       for (Side side : kAllSides) {

@@ -241,21 +241,13 @@ WorkingImage StepWorkingImage(int w, int h, int x0, int y0, int y1, float open) 
   return wk;
 }
 
-cv::Mat1f GradientOf(const cv::Mat1f& v) {
-  cv::Mat1f gx, gy, g;
-  cv::Sobel(v, gx, CV_32F, 1, 0, 3, 1.0 / 8.0);
-  cv::Sobel(v, gy, CV_32F, 0, 1, 3, 1.0 / 8.0);
-  cv::magnitude(gx, gy, g);
-  return g;
-}
-
 }  // namespace
 
 TEST_CASE("StepSpanIsTheRunWhereTheSideHasItsStep") {
   // A small field: its left blade shows a step only between its top and bottom blades (rows
   // 15 to 35); above and below, both sides of that line are blocked.
   WorkingImage wk = StepWorkingImage(60, 60, 20, 15, 35, 3.0f);
-  Frame f = MakeFrame(wk, GradientOf(wk.value), 0.0);
+  Frame f = MakeFrame(wk, testimg::GradientMagnitude(wk.value), 0.0);
   const std::vector<int> cands = SideCandidates(f, Side::kLeft, {0, 60}, 3);
   REQUIRE(!cands.empty());
   CHECK(std::abs(cands[0] - 20) <= 1);
@@ -275,7 +267,7 @@ TEST_CASE("CoverageCountsDenseAnatomyInsideTheEdge") {
   // inside) sees only the upper half and still passes.
   WorkingImage wk = StepWorkingImage(60, 60, 20, 0, 60, 3.0f);
   wk.value(cv::Rect(20, 30, 40, 30)).setTo(1.0f);
-  Frame f = MakeFrame(wk, GradientOf(wk.value), 0.0);
+  Frame f = MakeFrame(wk, testimg::GradientMagnitude(wk.value), 0.0);
   const SideEvidence ev = EvaluateSide(f, Side::kLeft, 20, {0, 60}, 3.0, 20.0, true);
   CHECK(ev.coverage > 0.9);
   CHECK(ev.blade);

@@ -9,6 +9,8 @@
 #include <random>
 #include <vector>
 
+#include <opencv2/imgproc.hpp>
+
 #include "beamtrim/field.h"
 #include "beamtrim/geometry.h"
 #include "beamtrim/image.h"
@@ -119,6 +121,15 @@ inline Image Render(const Spec& s) {
     }
   }
   return img;
+}
+
+// Gradient magnitude of a working image as the detector computes it (Sobel, 1/8 scale).
+inline cv::Mat1f GradientMagnitude(const cv::Mat1f& value) {
+  cv::Mat1f gx, gy, mag;
+  cv::Sobel(value, gx, CV_32F, 1, 0, 3, 1.0 / 8.0);
+  cv::Sobel(value, gy, CV_32F, 0, 1, 3, 1.0 / 8.0);
+  cv::magnitude(gx, gy, mag);
+  return mag;
 }
 
 inline FieldContext Context(bool linear, double spacing = 0.5) {
