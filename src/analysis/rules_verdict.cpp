@@ -104,8 +104,9 @@ void JudgeExcess(const ImageRecord& r, const Rule& rule, bool partial, Findings&
   }
 }
 
-// A record read back from JSON keeps only clipped_sides (already judged under its rule); a
-// fresh measurement is judged here under `rule` from the edges the anatomy runs into.
+// Judged under `rule` from the edges the anatomy runs into, its ends and continuing end (a
+// record carries all three, also when read back from JSON); a record without at-blade sides
+// (written before they were recorded) keeps its clipped_sides as judged then.
 void JudgeClipping(const AnatomyMeasurement& a, const Rule& rule, Findings& out) {
   std::vector<Side> cut = a.at_blade_sides.empty()
                               ? a.clipped_sides

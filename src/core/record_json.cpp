@@ -76,6 +76,7 @@ json AnatomyJson(const AnatomyMeasurement& a) {
           {"area_mm2", Opt(a.area_mm2)},
           {"clipped_sides", SideListJson(a.clipped_sides)},
           {"at_blade_sides", SideListJson(a.at_blade_sides)},
+          {"ends", a.ends ? SideListJson({(*a.ends)[0], (*a.ends)[1]}) : json(nullptr)},
           {"continuing_end", a.continuing_end ? json(SideName(*a.continuing_end)) : json(nullptr)}};
 }
 
@@ -256,6 +257,11 @@ AnatomyMeasurement ParseAnatomy(const json& j) {
   a.area_mm2 = GetOpt<double>(j, "area_mm2");
   if (j.contains("clipped_sides")) a.clipped_sides = ParseSideList(j.at("clipped_sides"));
   if (j.contains("at_blade_sides")) a.at_blade_sides = ParseSideList(j.at("at_blade_sides"));
+  if (j.contains("ends") && !j.at("ends").is_null()) {
+    const std::vector<Side> ends = ParseSideList(j.at("ends"));
+    if (ends.size() != 2) throw KeyError{"ends", "does not name 2 sides"};
+    a.ends = std::array<Side, 2>{ends[0], ends[1]};
+  }
   if (j.contains("continuing_end") && !j.at("continuing_end").is_null()) {
     const std::vector<Side> end = ParseSideList(json::array({j.at("continuing_end")}));
     a.continuing_end = end.front();

@@ -219,8 +219,8 @@ TEST_CASE("SituationFilterGivesThatKindOfPicture") {
 }
 
 TEST_CASE("TruthRecordSurvivesTheJsonRoundTrip") {
-  // Tight fields put anatomy at a blade, so the anatomy's side lists are exercised too.
-  int with_sides = 0;
+  // Tight fields put anatomy at a blade, so the anatomy's side lists and ends are exercised too.
+  int with_sides = 0, with_ends = 0;
   for (SynthSituation sit : {SynthSituation::kTypical, SynthSituation::kTight}) {
     for (int i = 0; i < 6; ++i) {
       ImageRecord t = ComputeTruth(RandomScenario(3, i, Small(sit)));
@@ -228,9 +228,11 @@ TEST_CASE("TruthRecordSurvivesTheJsonRoundTrip") {
       REQUIRE(back.ok());
       CHECK(ToJsonLine(*back) == ToJsonLine(t));
       if (t.anatomy && !t.anatomy->at_blade_sides.empty()) ++with_sides;
+      if (t.anatomy && t.anatomy->ends) ++with_ends;
     }
   }
   CHECK(with_sides > 0);
+  CHECK(with_ends > 0);
 }
 
 TEST_CASE("ClinicIsDeterministicAndUsesFictionalIdentities") {
