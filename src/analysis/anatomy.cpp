@@ -226,9 +226,9 @@ std::optional<std::array<Side, 2>> EndsOf(const anatomy_internal::Segmentation& 
     }
     double coherence = std::sqrt((jxx - jyy) * (jxx - jyy) + 4.0 * jxy * jxy) / std::max(jxx + jyy, 1e-12);
     if (coherence < 0.15) return std::nullopt;
-    theta = 0.5 * std::atan2(2.0 * jxy, jxx - jyy) + 0.5 * 3.14159265358979323846;
+    theta = 0.5 * std::atan2(2.0 * jxy, jxx - jyy) + 0.5 * M_PI;
   }
-  double rel = theta - rotation_deg * 3.14159265358979323846 / 180.0;
+  double rel = theta - rotation_deg * M_PI / 180.0;
   if (std::fabs(std::cos(rel)) >= std::fabs(std::sin(rel))) {
     return std::array<Side, 2>{Side::kLeft, Side::kRight};  // long axis along the field's u
   }
