@@ -33,6 +33,11 @@ struct Row {
   bool open_right = true, blanked_right = true, cropped_right = true, double_right = true;
   double ms = 0.0;
   bool full = false;
+  bool linear = false;
+  // Signed distance (mm) of each side found in both, at the middle of the true side: positive
+  // when the found edge lies outside the true field. Sides with a gross error are left out, so
+  // the figures show the bias of the refinement rather than wrong blades.
+  std::vector<double> side_offsets_mm;
 };
 
 double Pct(std::vector<double> v, double p) {
@@ -71,10 +76,34 @@ Polygon Baseline(const Image& image, bool linear) {
   return p;
 }
 
+std::vector<double> SideOffsetsMm(const FieldMeasurement& found, const FieldMeasurement& truth,
+                                  double pixel_mm) {
+  Point2d centre{0, 0};
+  for (const Point2d& q : truth.polygon_px) {
+    centre.x += q.x / truth.polygon_px.size();
+    centre.y += q.y / truth.polygon_px.size();
+  }
+  std::vector<double> out;
+  for (int k = 0; k < 4; ++k) {
+    const auto& fl = found.sides[k].line_px;
+    const auto& tl = truth.sides[k].line_px;
+    if (!found.sides[k].visible || !truth.sides[k].visible || !fl || !tl) continue;
+    const Point2d mid{(tl->a.x + tl->b.x) / 2, (tl->a.y + tl->b.y) / 2};
+    Line f = LineThrough(fl->a, fl->b);
+    if (f.SignedDistance(centre) > 0) f = Line{-f.nx, -f.ny, -f.c};
+    // The found line's distance from the true side's middle, along the found normal: negative
+    // of the middle's signed distance from the found line.
+    const double d = -f.SignedDistance(mid) * pixel_mm;
+    if (std::fabs(d) < 5.0) out.push_back(d);
+  }
+  return out;
+}
+
 Row RunOne(const SynthImage& img, double pixel_mm, bool full, Polygon* found) {
   Row r;
   r.situation = img.situation;
   r.full = full;
+  r.linear = img.linear;
   const FieldContext ctx = FieldContextFromHeader(img.header, img.linear);
   const auto t0 = std::chrono::steady_clock::now();
   const FieldMeasurement m = DetectField(img.pixels, ctx);
@@ -106,6 +135,7 @@ Row RunOne(const SynthImage& img, double pixel_mm, bool full, Polygon* found) {
     }
     for (const auto& n : m.notes) std::fprintf(stderr, "  note: %s\n", n.c_str());
   }
+  r.side_offsets_mm = SideOffsetsMm(m, t, pixel_mm);
   const double step = std::max(0.25, 0.5 / pixel_mm);  // sample the boundaries every 0.5 mm
   // Under an electronic mask the field cannot be seen: the detector reports those sides as
   // not assessable, and is scored against the true field clipped to the unmasked part.
@@ -215,6 +245,24 @@ int main(int argc, char** argv) {
   for (const Row& r : rows) by[r.situation].push_back(r);
   for (const auto& [name, rs] : by) Print(name, rs);
   Print("all", rows);
+  // Bias of the refined edges (sides within 5 mm of the truth only).
+  for (int lin = 0; lin < 2; ++lin) {
+    for (int fu = 0; fu < 2; ++fu) {
+      std::vector<double> d, a;
+      for (const Row& r : rows) {
+        if (r.linear != bool(lin) || r.full != bool(fu)) continue;
+        for (double x : r.side_offsets_mm) {
+          d.push_back(x);
+          a.push_back(std::fabs(x));
+        }
+      }
+      if (d.empty()) continue;
+      std::printf("side offset (+ = outside), %s, %s: n %zu, median %+.2f mm, |offset| median "
+                  "%.2f p90 %.2f mm\n",
+                  lin ? "raw (linear)" : "processed", fu ? "full size" : "0.5 mm", d.size(),
+                  Pct(d, 50), Pct(a, 50), Pct(a, 90));
+    }
+  }
   std::vector<double> ms_full, ms_small;
   for (const Row& r : rows) (r.full ? ms_full : ms_small).push_back(r.ms);
   std::printf("analysis time per image, one core:");

@@ -165,6 +165,13 @@ struct EdgeCrossing {
 EdgeCrossing LocateCrossing(const std::vector<double>& profile, double step, double fraction,
                             std::optional<double> absolute_level = std::nullopt);
 
+// The 50 % exposure point of a processed (display) profile, same convention as
+// EdgeCrossing::offset. Display values are taken as a monotone function of exposure, locally
+// affine in its logarithm with an unknown gain; the gain chosen is the one that makes the
+// transition point-symmetric about its 50 % point, as the symmetric blur of a blade shadow is
+// in exposure (docs/method.md, "Sub-pixel refinement"). nullopt when no gain does.
+std::optional<double> SymmetricExposureCrossing(const std::vector<double>& profile, double step);
+
 // Bilinear sample at continuous coordinates (pixel centres at +0.5); clamps at the border.
 double SampleBilinear(const Image& image, double x, double y);
 

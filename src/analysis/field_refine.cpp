@@ -51,28 +51,35 @@ double SampleBilinear(const Image& image, double x, double y) {
   return top * (1 - ay) + bottom * ay;
 }
 
-EdgeCrossing LocateCrossing(const std::vector<double>& p, double step, double fraction,
-                            std::optional<double> absolute_level) {
-  EdgeCrossing out;
-  const int n = static_cast<int>(p.size());
-  if (n < 8) return out;
-  // Steepest rise on a lightly smoothed derivative.
+namespace {
+
+// The blocked and open levels next to the transition and the steepest rise of a profile.
+struct Transition {
   int steepest = -1;
+  double low = 0.0;
+  double high = 0.0;
+};
+
+std::optional<Transition> FindTransition(const std::vector<double>& p) {
+  const int n = static_cast<int>(p.size());
+  if (n < 8) return std::nullopt;
+  Transition t;
+  // Steepest rise on a lightly smoothed derivative.
   double best = 0.0;
   for (int i = 2; i + 2 < n; ++i) {
     const double d = (p[i + 2] + p[i + 1]) - (p[i - 1] + p[i - 2]);
-    if (d > best) { best = d; steepest = i; }
+    if (d > best) { best = d; t.steepest = i; }
   }
-  if (steepest < 0) return out;
+  if (t.steepest < 0) return std::nullopt;
   // First levels from the profile ends, then from windows just beyond the transition.
   const int quarter = std::max(2, n / 5);
-  double low = MedianRange(p, 0, quarter);
-  double high = MedianRange(p, n - quarter, n);
+  t.low = MedianRange(p, 0, quarter);
+  t.high = MedianRange(p, n - quarter, n);
   for (int iter = 0; iter < 2; ++iter) {
-    if (!(high > low)) return out;
-    auto c10 = NearestCrossing(p, steepest, low + 0.1 * (high - low));
-    auto c90 = NearestCrossing(p, steepest, low + 0.9 * (high - low));
-    if (!c10 || !c90) return out;
+    if (!(t.high > t.low)) return std::nullopt;
+    auto c10 = NearestCrossing(p, t.steepest, t.low + 0.1 * (t.high - t.low));
+    auto c90 = NearestCrossing(p, t.steepest, t.low + 0.9 * (t.high - t.low));
+    if (!c10 || !c90) return std::nullopt;
     const double width = std::max(1.0, *c90 - *c10);
     const int window = std::max(4, static_cast<int>(width));
     const int a = static_cast<int>(std::floor(*c10 - 0.5 * width));
@@ -80,14 +87,34 @@ EdgeCrossing LocateCrossing(const std::vector<double>& p, double step, double fr
     const double l = MedianRange(p, a - window, a);
     const double h = MedianRange(p, b + 1, b + 1 + window);
     if (std::isnan(l) || std::isnan(h)) break;  // keep the levels from the ends
-    low = l;
-    high = h;
+    t.low = l;
+    t.high = h;
   }
-  if (!(high > low)) return out;
+  if (!(t.high > t.low)) return std::nullopt;
+  return t;
+}
+
+// Display fraction q (0 at the blocked level, 1 at the open level) at which the exposure
+// fraction is f, when the display value is affine in log exposure and the open level is e^k
+// times the blocked one (k = 0: display proportional to exposure).
+double DisplayFractionOfExposure(double f, double k) {
+  if (std::fabs(k) < 1e-9) return f;
+  return std::log1p(f * std::expm1(k)) / k;
+}
+
+}  // namespace
+
+EdgeCrossing LocateCrossing(const std::vector<double>& p, double step, double fraction,
+                            std::optional<double> absolute_level) {
+  EdgeCrossing out;
+  const auto t = FindTransition(p);
+  if (!t) return out;
+  const double low = t->low, high = t->high;
   const double level = absolute_level ? *absolute_level : low + fraction * (high - low);
-  auto c = NearestCrossing(p, steepest, level);
-  auto c10 = NearestCrossing(p, steepest, low + 0.1 * (high - low));
-  auto c90 = NearestCrossing(p, steepest, low + 0.9 * (high - low));
+  const int n = static_cast<int>(p.size());
+  auto c = NearestCrossing(p, t->steepest, level);
+  auto c10 = NearestCrossing(p, t->steepest, low + 0.1 * (high - low));
+  auto c90 = NearestCrossing(p, t->steepest, low + 0.9 * (high - low));
   if (!c || !c10 || !c90) return out;
   out.offset = (*c - 0.5 * (n - 1)) * step;
   out.span_centre = (0.5 * (*c10 + *c90) - 0.5 * (n - 1)) * step;
@@ -96,6 +123,37 @@ EdgeCrossing LocateCrossing(const std::vector<double>& p, double step, double fr
   out.penumbra = std::max(0.0, *c90 - *c10) * step;
   out.ok = true;
   return out;
+}
+
+std::optional<double> SymmetricExposureCrossing(const std::vector<double>& p, double step) {
+  const auto t = FindTransition(p);
+  if (!t) return std::nullopt;
+  const int n = static_cast<int>(p.size());
+  struct Try {
+    double k = 0.0, asymmetry = 0.0, centre = 0.0;
+  };
+  auto attempt = [&](double k) -> std::optional<Try> {
+    auto at = [&](double f) {
+      return NearestCrossing(p, t->steepest,
+                             t->low + DisplayFractionOfExposure(f, k) * (t->high - t->low));
+    };
+    const auto c25 = at(0.25), c50 = at(0.5), c75 = at(0.75);
+    if (!c25 || !c50 || !c75) return std::nullopt;
+    // A symmetric blur of the blade shadow is point-symmetric about its 50 % exposure point.
+    return Try{k, (*c50 - *c25) - (*c75 - *c50), *c50};
+  };
+  // Curvatures e^k from 1/50 to e^16.
+  std::optional<Try> previous;
+  for (double k = -4.0; k <= 16.0 + 1e-9; k += 0.1) {
+    const auto now = attempt(k);
+    if (now && previous && previous->asymmetry < 0.0 && now->asymmetry >= 0.0) {
+      const double w = previous->asymmetry / (previous->asymmetry - now->asymmetry);
+      const double centre = previous->centre + w * (now->centre - previous->centre);
+      return (centre - 0.5 * (n - 1)) * step;
+    }
+    if (now) previous = now;
+  }
+  return std::nullopt;
 }
 
 Line RobustLineFit(const std::vector<Point2d>& pts, const Line& start, double scale_px,
@@ -152,13 +210,14 @@ namespace {
 
 struct ProfileSet {
   std::vector<Point2d> points;
+  std::vector<std::vector<double>> profiles;  // kept only when asked
   std::vector<double> lows, highs, penumbras;
   int quarter_misses = 0;
 };
 
 ProfileSet SampleProfiles(const Image& image, const Line& line, Point2d a, Point2d b,
                           double half, bool linear, EdgeDefinition def, const cv::Mat1b* valid,
-                          int factor) {
+                          int factor, bool keep_profiles = false) {
   ProfileSet set;
   const double len = std::hypot(b.x - a.x, b.y - a.y);
   if (len < 1.0) return set;
@@ -211,8 +270,37 @@ ProfileSet SampleProfiles(const Image& image, const Line& line, Point2d a, Point
     set.lows.push_back(e.low);
     set.highs.push_back(e.high);
     set.penumbras.push_back(e.penumbra);
+    if (keep_profiles) set.profiles.push_back(prof);
   }
   return set;
+}
+
+// Median, sample by sample, of profiles of equal length (markers and noise drop out).
+std::vector<double> MedianProfile(const std::vector<std::vector<double>>& profiles) {
+  std::vector<double> out(profiles.front().size()), column(profiles.size());
+  for (size_t i = 0; i < out.size(); ++i) {
+    for (size_t k = 0; k < profiles.size(); ++k) column[k] = profiles[k][i];
+    out[i] = MedianOf(column);
+  }
+  return out;
+}
+
+// On a processed image the line fitted through the 10-90 % span centres still lies towards
+// the blocked side of the blade's projection: the display is roughly logarithmic in exposure,
+// so the transition is lopsided. The median profile across the fitted line shows by how much;
+// the line is moved to its 50 % exposure point (at most one penumbra width).
+Line MoveToSymmetricExposurePoint(const Image& image, const Line& line, Point2d a, Point2d b,
+                                  double half, const cv::Mat1b* valid, int factor) {
+  const ProfileSet set = SampleProfiles(image, line, a, b, half, false,
+                                        EdgeDefinition::kHalfTransition, valid, factor, true);
+  if (set.profiles.size() < 3) return line;
+  const std::vector<double> median = MedianProfile(set.profiles);
+  const EdgeCrossing fitted = LocateCrossing(median, 0.5, 0.5);
+  const auto symmetric = SymmetricExposureCrossing(median, 0.5);
+  if (!fitted.ok || !symmetric) return line;
+  const double shift = *symmetric - fitted.span_centre;  // + = inward
+  if (std::fabs(shift) > std::max(1.0, fitted.penumbra)) return line;
+  return Line{line.nx, line.ny, line.c - shift};
 }
 
 }  // namespace
@@ -231,6 +319,9 @@ RefinedSide RefineSide(const Image& image, const Line& coarse, Point2d a, Point2
     // Second pass: a narrower window around the fitted line, wide enough for the penumbra.
     half = std::max(8.0, 3.0 * MedianOf(set.penumbras));
     half = std::min(half, search_px);
+  }
+  if (!linear && definition == EdgeDefinition::kHalfTransition) {
+    line = MoveToSymmetricExposurePoint(image, line, a, b, half, valid, factor);
   }
   out.ok = true;
   out.line = line;
