@@ -85,7 +85,7 @@ struct Refiner {
 
   float Residual(int x, int y) const {
     double wx = (x + 0.5) / w.fx - 0.5, wy = (y + 0.5) / w.fy - 0.5;
-    return static_cast<float>(anatomy_internal::SurfaceAt(s.surface, wx, wy) -
+    return static_cast<float>(anatomy_internal::LevelAt(s, wx, wy) -
                               LocalLog(image, x, y, linear));
   }
   bool Usable(int x, int y) const {

@@ -31,6 +31,9 @@ struct Segmentation {
   cv::Mat metal;        // CV_8U, metal that is not anatomy (markers, shields)
   cv::Mat direct;       // CV_8U, direct exposure
   std::array<double, 6> surface{};  // quadratic in working pixel coordinates
+  // Local direct-exposure level (CV_32F, working resolution) when direct exposure was found:
+  // follows the smooth shading that image processing adds to the open field; empty otherwise.
+  cv::Mat background;
   double threshold = 0.0;   // R above which a pixel is tissue
   double noise = 0.0;       // robust sigma of R in direct exposure, working resolution
   double tissue_level = 0.0;  // median R of the tissue class
@@ -44,6 +47,10 @@ Working MakeWorking(const Image& image, const FieldMeasurement& field,
 Segmentation Segment(const Working& w, const std::array<double, 2>& spacing, double working_mm);
 
 double SurfaceAt(const std::array<double, 6>& q, double x, double y);
+
+// Direct-exposure level at working-pixel coordinates (x, y): the local background,
+// interpolated bilinearly, or the plane when there is none.
+double LevelAt(const Segmentation& s, double x, double y);
 
 // Log-domain value used for both resolutions.
 inline float ToLog(float v, bool linear) {

@@ -259,6 +259,40 @@ void RemoveSmall(cv::Mat& mask, double min_px) {
   }
 }
 
+// Local direct-exposure level: a normalised convolution (Knutsson and Westin 1993) of the log
+// image over the direct exposure's core, blended into the plane where no direct exposure lies
+// within reach. Image processing (unsharp masking, equalisation) shades the open field smoothly
+// over a few centimetres, most strongly beside the skin line and the blade shadows; a plane
+// cannot follow that, and the shading then passes for attenuation spread, raising the tissue
+// threshold above thin soft tissue (fingers, the skin over a knee or a foot). Measured against
+// the open field right beside it, the skin line keeps its full step.
+cv::Mat LocalBackground(const Working& w, const cv::Mat& direct, const std::array<double, 6>& plane,
+                        double working_mm) {
+  cv::Mat core;
+  cv::erode(direct, core, Disk(std::max(1, static_cast<int>(std::lround(2.0 / working_mm)))));
+  if (cv::countNonZero(core) < 20) return {};
+  cv::Mat weight, value, logs;
+  core.convertTo(weight, CV_32F, 1.0 / 255.0);
+  logs = w.log.mul(weight);
+  const double sigma = 8.0 / working_mm;  // shading varies over centimetres, noise over pixels
+  cv::GaussianBlur(weight, weight, cv::Size(0, 0), sigma, sigma, cv::BORDER_CONSTANT);
+  cv::GaussianBlur(logs, value, cv::Size(0, 0), sigma, sigma, cv::BORDER_CONSTANT);
+  cv::Mat out(w.log.size(), CV_32F);
+  constexpr double kReach = 0.1;  // weight below which the neighbourhood holds too little
+  for (int y = 0; y < out.rows; ++y) {
+    const float* wt = weight.ptr<float>(y);
+    const float* v = value.ptr<float>(y);
+    float* o = out.ptr<float>(y);
+    for (int x = 0; x < out.cols; ++x) {
+      double p = SurfaceAt(plane, x, y);
+      double a = std::clamp(wt[x] / kReach, 0.0, 1.0);
+      double local = wt[x] > 1e-6 ? v[x] / wt[x] : p;
+      o[x] = static_cast<float>(a * local + (1.0 - a) * p);
+    }
+  }
+  return out;
+}
+
 // True when the field holds nothing but noise and smooth shading: the spread of the
 // plane-corrected values is within a few times the pixel-to-pixel noise.
 bool IsFlat(const Working& w) {
@@ -340,6 +374,36 @@ Candidate Evaluate(const Working& w, const cv::Mat& mask, double pixel_noise, do
 }
 
 constexpr double kMinStep = 4.5;  // attenuation step at the skin line, in noise units
+// Median attenuation of tissue split off the direct exposure, in noise units: the upper half
+// of the open field's own noise lies about 1 sigma above its lower half.
+constexpr double kMinRemoved = 2.0;
+
+// The step at a candidate's border measured against the open field right beside it (the local
+// background) instead of one plane: processing shades the open field over centimetres, which a
+// plane leaves in the spread and so hides a faint skin line.
+// `removed` (optional) is the part of the previous candidate left outside this one: it must be
+// attenuating like tissue (its median at least kMinRemoved noise units above the open field),
+// else the split only divided the open field's noise or shading and the step is 0.
+double LocalStep(const Working& w, const Candidate& c, double pixel_noise, double working_mm,
+                 const cv::Mat& removed) {
+  cv::Mat background = LocalBackground(w, c.mask, c.surface, working_mm);
+  if (background.empty()) return 0.0;
+  cv::Mat residual = background - w.log;
+  std::vector<float> in = Values(residual, c.mask);
+  double noise = std::max(RobustSigma(in), pixel_noise);
+  if (!removed.empty() && cv::countNonZero(removed) > 0 &&
+      (Median(Values(residual, removed)) - Median(in)) < kMinRemoved * noise) {
+    return 0.0;
+  }
+  cv::Mat near, far;
+  int r1 = std::max(1, static_cast<int>(std::lround(1.0 / working_mm)));
+  int r3 = std::max(r1 + 1, static_cast<int>(std::lround(3.0 / working_mm)));
+  cv::dilate(c.mask, near, Disk(r1));
+  cv::dilate(c.mask, far, Disk(r3));
+  cv::Mat ring = far & ~near & w.field;
+  if (cv::countNonZero(ring) < 10 || !(noise > 0.0)) return 0.0;
+  return (Median(Values(residual, ring)) - Median(in)) / noise;
+}
 
 // Direct exposure: not a sliver, with a clear step at its border, beside a patient, and
 // reaching the field edge (air surrounds the patient) or large.
@@ -351,6 +415,19 @@ bool Plausible(const Candidate& c, int field_px) {
 
 double SurfaceAt(const std::array<double, 6>& q, double x, double y) {
   return q[0] + q[1] * x + q[2] * y + q[3] * x * x + q[4] * x * y + q[5] * y * y;
+}
+
+double LevelAt(const Segmentation& s, double x, double y) {
+  const cv::Mat& b = s.background;
+  if (b.empty()) return SurfaceAt(s.surface, x, y);
+  x = std::clamp(x, 0.0, b.cols - 1.0);
+  y = std::clamp(y, 0.0, b.rows - 1.0);
+  int x0 = std::min(static_cast<int>(x), b.cols - 1), y0 = std::min(static_cast<int>(y), b.rows - 1);
+  int x1 = std::min(x0 + 1, b.cols - 1), y1 = std::min(y0 + 1, b.rows - 1);
+  double fx = x - x0, fy = y - y0;
+  double top = (1.0 - fx) * b.at<float>(y0, x0) + fx * b.at<float>(y0, x1);
+  double bottom = (1.0 - fx) * b.at<float>(y1, x0) + fx * b.at<float>(y1, x1);
+  return (1.0 - fy) * top + fy * bottom;
 }
 
 Working MakeWorking(const Image& image, const FieldMeasurement& field,
@@ -429,6 +506,22 @@ Segmentation Segment(const Working& w, const std::array<double, 2>& spacing, dou
                             : Plausible(two, field_px) ? &two : nullptr;
   s.step = std::max(three.step, two.step);
   s.direct_found = chosen != nullptr;
+  // Thin soft tissue (a foot's or a hand's outline on a processed image) can be so faint that
+  // it falls into the least attenuated class with the direct exposure. Direct exposure is the
+  // least attenuated region bounded by a step, so the split is repeated inside the chosen
+  // candidate while its lighter part is itself plausible direct exposure. A split of smooth
+  // shading alone fails the step test: its border is a gentle slope, not a step.
+  Candidate inner;
+  for (int round = 0; chosen && round < 2; ++round) {
+    std::vector<float> values = Values(chosen->residual, chosen->mask);
+    cv::Mat sub = (chosen->residual < OtsuThreshold(values)) & chosen->mask;
+    cv::morphologyEx(sub, sub, cv::MORPH_OPEN, Disk(1));  // a split of noise is speckle
+    Candidate next = Evaluate(w, sub, pixel_noise, working_mm);
+    next.step = LocalStep(w, next, pixel_noise, working_mm, chosen->mask & ~sub);
+    if (next.area >= chosen->area || !Plausible(next, field_px)) break;
+    inner = std::move(next);
+    chosen = &inner;
+  }
   const Candidate& c = chosen ? *chosen : two;
   s.surface = c.surface;
   s.residual = c.residual;
@@ -442,6 +535,12 @@ Segmentation Segment(const Working& w, const std::array<double, 2>& spacing, dou
     s.anatomy = w.field.clone();
     s.threshold = 0.0;
     return s;
+  }
+  s.background = LocalBackground(w, c.mask, c.surface, working_mm);
+  if (!s.background.empty()) {
+    s.residual = s.background - w.log;
+    s.noise = std::max(RobustSigma(Values(s.residual, c.mask)), pixel_noise);
+    s.tissue_level = Median(Values(s.residual, w.field & ~c.mask));
   }
   s.threshold = std::clamp(std::max(5.0 * s.noise, 0.1 * s.tissue_level), 0.0,
                            0.5 * s.tissue_level);
