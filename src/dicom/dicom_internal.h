@@ -5,6 +5,7 @@
 
 #include <array>
 #include <cstdint>
+#include <memory>
 #include <optional>
 #include <string>
 #include <vector>
@@ -33,14 +34,17 @@ RadiographHeader ExtractHeader(DcmDataset& dataset);
 // sequences recursively, and the item count bounds the nesting depth (nesting_guard.cpp).
 Status CheckItemCount(const std::string& file, size_t max_items);
 
-// One decoded JPEG 2000 component.
+// One decoded JPEG 2000 component. `values` points into the decoder's own image, which
+// `owner` keeps alive: the component is not copied (an image of 8 million pixels is 32 MiB
+// of int32 values, which the reader turns into the float image directly).
 struct J2kImage {
   int width = 0;
   int height = 0;
   int components = 0;
   int precision = 0;
   bool is_signed = false;
-  std::vector<int32_t> values;  // first component, row-major
+  const int32_t* values = nullptr;  // first component, row-major, width x height
+  std::shared_ptr<const void> owner;
 };
 
 // Decodes a J2K codestream or a JP2 file held in memory. `max_pixels` guards against a

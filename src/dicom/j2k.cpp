@@ -170,7 +170,12 @@ Result<J2kImage> DecodeJ2k(const uint8_t* data, size_t size, int64_t max_pixels)
   out.components = static_cast<int>(image->numcomps);
   out.precision = static_cast<int>(c.prec);
   out.is_signed = c.sgnd != 0;
-  out.values.assign(c.data, c.data + static_cast<size_t>(w) * static_cast<size_t>(h));
+  static_assert(sizeof(OPJ_INT32) == sizeof(int32_t));
+  out.values = reinterpret_cast<const int32_t*>(c.data);
+  // The codec (and its tile buffers) is destroyed on return; the image lives on in `out`.
+  out.owner = std::shared_ptr<const void>(image.release(), [](const void* p) {
+    opj_image_destroy(static_cast<opj_image_t*>(const_cast<void*>(p)));
+  });
   return out;
 }
 

@@ -136,10 +136,6 @@ Status CheckGeometry(const Context& c, const RadiographHeader& h) {
   return Status::Ok();
 }
 
-// Stored values of the first frame, one int per pixel, as Pixel Representation says (the
-// JPEG 2000 decoder's output).
-using Stored = std::vector<int32_t>;
-
 // Direction of the stored scale (docs/dicom.md "Pixel convention"). Pixel Intensity
 // Relationship Sign (0028,1041) decides when present: -1 means higher values = less X-ray
 // intensity (PS3.3 DX Image module). Without it: MONOCHROME1 shows low values white
@@ -172,11 +168,14 @@ struct ToImageValue {
   bool invert;
 };
 
-void Normalise(const Stored& s, const RadiographHeader& h, Image& out) {
+// Stored values of the first frame, one int per pixel, as Pixel Representation says (the
+// JPEG 2000 decoder's output, rows x columns of them), to the Image.
+void Normalise(const int32_t* stored, const RadiographHeader& h, Image& out) {
   out = Image(h.columns, h.rows);
   const ToImageValue value(h);
   float* px = out.data();
-  for (size_t i = 0; i < s.size(); ++i) px[i] = value(s[i]);
+  const size_t n = static_cast<size_t>(h.rows) * h.columns;
+  for (size_t i = 0; i < n; ++i) px[i] = value(stored[i]);
 }
 
 // Native (little-endian, as DCMTK delivers them) samples of the first frame straight to the
@@ -252,14 +251,23 @@ Status DecodeWithDcmtk(const Context& c, DcmDataset& ds, DcmElement& pixel,
   return Status::Ok();
 }
 
+// The bytes of frame 1: a view of DCMTK's fragment when the frame is a single fragment (the
+// usual case: nothing copied), else the fragments joined into `joined`.
+struct FrameBytes {
+  std::vector<uint8_t> joined;
+  const uint8_t* data = nullptr;
+  size_t size = 0;
+};
+
 // Fragments of frame 1 in an encapsulated sequence (PS3.5 A.4): item 0 is the Basic Offset
 // Table; with several frames and no table, one fragment per frame is the common case, and
 // otherwise fragments are taken up to the one ending with the EOC marker FFD9.
-Result<std::vector<uint8_t>> FirstFrameBytes(const Context& c, DcmPixelSequence& seq,
-                                             const RadiographHeader& h) {
+Result<FrameBytes> FirstFrameBytes(const Context& c, DcmPixelSequence& seq,
+                                   const RadiographHeader& h) {
   unsigned long count = seq.card();
   if (count < 2) return Fail(c, ErrorKind::kMalformed, DCM_PixelData, "encapsulated pixel data has no fragments");
-  std::vector<uint8_t> bytes;
+  FrameBytes out;
+  std::vector<uint8_t>& bytes = out.joined;
   bool one_per_frame = h.number_of_frames > 1 && count - 1 == static_cast<unsigned long>(h.number_of_frames);
   for (unsigned long i = 1; i < count; ++i) {
     DcmPixelItem* item = nullptr;
@@ -268,6 +276,13 @@ Result<std::vector<uint8_t>> FirstFrameBytes(const Context& c, DcmPixelSequence&
       return Fail(c, ErrorKind::kMalformed, DCM_PixelData, "fragment " + std::to_string(i) + " unreadable");
     }
     Uint32 len = item->getLength();
+    // A frame that is one whole fragment is used where DCMTK keeps it.
+    bool single = i == 1 && (one_per_frame || (h.number_of_frames == 1 && count == 2));
+    if (single) {
+      out.data = data;
+      out.size = data != nullptr ? len : 0;
+      return out;
+    }
     if (data != nullptr) bytes.insert(bytes.end(), data, data + len);
     if (h.number_of_frames == 1) continue;
     if (one_per_frame) break;
@@ -276,15 +291,16 @@ Result<std::vector<uint8_t>> FirstFrameBytes(const Context& c, DcmPixelSequence&
                (n >= 3 && bytes[n - 3] == 0xFF && bytes[n - 2] == 0xD9 && bytes[n - 1] == 0);
     if (eoc) break;
   }
-  return bytes;
+  out.data = bytes.data();
+  out.size = bytes.size();
+  return out;
 }
 
 // The bytes of frame 1 for the codecs beamtrim decodes itself, from the sequence of fragments
 // DCMTK keeps in the file's own (encapsulated) representation. `codec` names the syntax in the
 // error when the pixel data is not encapsulated after all.
-Result<std::vector<uint8_t>> EncapsulatedFirstFrame(const Context& c, DcmElement& pixel,
-                                                    const RadiographHeader& h,
-                                                    const std::string& codec) {
+Result<FrameBytes> EncapsulatedFirstFrame(const Context& c, DcmElement& pixel,
+                                          const RadiographHeader& h, const std::string& codec) {
   auto& pd = static_cast<DcmPixelData&>(pixel);
   E_TransferSyntax xfer = EXS_Unknown;
   const DcmRepresentationParameter* param = nullptr;
@@ -300,9 +316,9 @@ Result<std::vector<uint8_t>> EncapsulatedFirstFrame(const Context& c, DcmElement
 // comparing the two, so a header that lies about the size gave an image partly made of an
 // empty buffer, measured as if real (a fuzzing finding). The frame header must agree.
 Status CheckJpegFrameSize(const Context& c, DcmElement& pixel, const RadiographHeader& h) {
-  Result<std::vector<uint8_t>> bytes = EncapsulatedFirstFrame(c, pixel, h, "JPEG");
+  Result<FrameBytes> bytes = EncapsulatedFirstFrame(c, pixel, h, "JPEG");
   if (!bytes) return bytes.error();
-  std::optional<JpegFrameSize> frame = ReadJpegFrameSize(bytes->data(), bytes->size());
+  std::optional<JpegFrameSize> frame = ReadJpegFrameSize(bytes->data, bytes->size);
   // No readable frame header, or lines given later by a DNL marker: DCMTK's decoder judges.
   if (!frame || frame->lines == 0) return Status::Ok();
   if (frame->columns != h.columns || frame->lines != h.rows) {
@@ -314,11 +330,11 @@ Status CheckJpegFrameSize(const Context& c, DcmElement& pixel, const RadiographH
   return Status::Ok();
 }
 
-Result<Stored> DecodeJpeg2000(const Context& c, DcmElement& pixel, const RadiographHeader& h,
-                              std::vector<std::string>& notes) {
-  Result<std::vector<uint8_t>> bytes = EncapsulatedFirstFrame(c, pixel, h, "JPEG 2000");
+Result<J2kImage> DecodeJpeg2000(const Context& c, DcmElement& pixel, const RadiographHeader& h,
+                                std::vector<std::string>& notes) {
+  Result<FrameBytes> bytes = EncapsulatedFirstFrame(c, pixel, h, "JPEG 2000");
   if (!bytes) return bytes.error();
-  Result<J2kImage> img = DecodeJ2k(bytes->data(), bytes->size(), c.options.max_pixels);
+  Result<J2kImage> img = DecodeJ2k(bytes->data, bytes->size, c.options.max_pixels);
   if (!img) return Fail(c, ErrorKind::kMalformed, DCM_PixelData, img.error().reason);
   if (img->width != h.columns || img->height != h.rows) {
     return Fail(c, ErrorKind::kMalformed, DCM_PixelData,
@@ -338,15 +354,15 @@ Result<Stored> DecodeJpeg2000(const Context& c, DcmElement& pixel, const Radiogr
     notes.push_back("JPEG 2000 precision/sign (" + std::to_string(img->precision) +
                     (img->is_signed ? " signed" : " unsigned") + ") differs from the header; codestream values used");
   }
-  return std::move(img->values);
+  return std::move(*img);
 }
 
 // RLE Lossless is decoded by beamtrim itself (src/dicom/rle.cpp explains why).
 Status DecodeRle(const Context& c, DcmElement& pixel, const RadiographHeader& h, Image& out) {
-  Result<std::vector<uint8_t>> bytes = EncapsulatedFirstFrame(c, pixel, h, "RLE");
+  Result<FrameBytes> bytes = EncapsulatedFirstFrame(c, pixel, h, "RLE");
   if (!bytes) return bytes.error();
   Result<std::vector<uint8_t>> frame =
-      DecodeRleFrame(bytes->data(), bytes->size(), h.rows, h.columns, h.bits_allocated / 8);
+      DecodeRleFrame(bytes->data, bytes->size, h.rows, h.columns, h.bits_allocated / 8);
   if (!frame) return Fail(c, ErrorKind::kMalformed, DCM_PixelData, frame.error().reason);
   NormaliseNative(*frame, h, out);
   return Status::Ok();
@@ -373,9 +389,9 @@ Status DecodePixels(const Context& c, DcmDataset& ds, Radiograph& r) {
     if (Status s = CheckJpegFrameSize(c, *pixel, h); !s) return s;
   }
   if (IsJpeg2000(h.transfer_syntax_uid)) {
-    Result<Stored> stored = DecodeJpeg2000(c, *pixel, h, r.notes);
+    Result<J2kImage> stored = DecodeJpeg2000(c, *pixel, h, r.notes);
     if (!stored) return stored.error();
-    Normalise(*stored, h, r.pixels);
+    Normalise(stored->values, h, r.pixels);
     return Status::Ok();
   }
   if (h.transfer_syntax_uid == kRleUid) return DecodeRle(c, *pixel, h, r.pixels);

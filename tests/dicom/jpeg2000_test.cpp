@@ -162,6 +162,33 @@ TEST_CASE("WrittenJpeg2000FragmentsDecodeIndependently") {
   }
 }
 
+// The reader decodes a one-fragment frame where DCMTK keeps it and joins a frame split over
+// several fragments first (PS3.5 A.4 allows both for one frame). Both paths must give every
+// pixel exactly as OpenJPEG decodes the codestream on its own (the independent decoder above).
+TEST_CASE("Jpeg2000FrameInOneFragmentOrSeveralReadsToTheSamePixels") {
+  TempDir dir("j2kfrag");
+  StoredPixels px = MakePixels(90, 70, 12, false, 11);
+  RadiographHeader h = MakeHeader(px, 16, 12, false);
+  std::filesystem::path cs = dir / "a.j2k";
+  REQUIRE(EncodeWithOpenJpeg(px, 12, false, OPJ_CODEC_J2K, cs));
+  std::vector<int32_t> independent = DecodeWithOpenJpeg(cs);
+  REQUIRE(independent.size() == px.values.size());
+  for (size_t fragments : {size_t{1}, size_t{2}, size_t{5}}) {
+    CAPTURE(fragments);
+    std::filesystem::path f = dir / ("f" + std::to_string(fragments) + ".dcm");
+    WriteEncapsulated(h, beamtrim::test::ReadBytes(cs), EXS_JPEG2000LosslessOnly, f, fragments);
+    Result<Radiograph> r = ReadRadiograph(f);
+    REQUIRE_MESSAGE(r.ok(), r.error().ToString());
+    REQUIRE(r->pixels.width() == 90);
+    REQUIRE(r->pixels.height() == 70);
+    size_t differing = 0;
+    for (size_t i = 0; i < independent.size(); ++i) {
+      if (r->pixels.data()[i] != static_cast<float>(independent[i])) ++differing;
+    }
+    CHECK(differing == 0);
+  }
+}
+
 TEST_CASE("Jpeg2000WithBadHeaderIsRejected") {
   TempDir dir("j2kbad");
   StoredPixels px = MakePixels(64, 48, 12, false);
