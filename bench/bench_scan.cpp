@@ -5,11 +5,14 @@
 // docs/performance.md. A store-write pass times Store::PutBatch alone on constructed records.
 // Usage:
 //   bench_scan [--dir DIR] [--small N] [--full N] [--threads 1,2] [--uncompressed 0|1]
-//              [--records N] [--stages N] [--generate-only 1]
+//              [--records N] [--stages N] [--generate-only 1] [--counts 25,50,100,200]
 // DIR keeps the generated images between runs (default: a folder under /tmp); the images are
 // the generator's usual mix of transfer syntaxes, and `--uncompressed 1` (the default) adds
 // rows for the uncompressed files among them. `--stages N` times read, field, anatomy and
-// metrics separately on the first N files of each set (CPU time, one thread).
+// metrics separately on the first N files of each set (CPU time, one thread). `--counts`
+// replaces the tables by the memory curve: for each count, the decode-only pass and the scan
+// on the first that many files of each set, with the last thread count, peak memory and CPU
+// time per image side by side, so growth with the number of images shows in one run.
 #include <sys/resource.h>
 #include <sys/time.h>
 #include <time.h>
@@ -107,12 +110,14 @@ PassResult DecodeOnly(const std::vector<fs::path>& files, int threads) {
     TuneAllocatorForBatch();  // as the scan does, so the two passes differ only in measuring
     std::atomic<size_t> next{0};
     std::atomic<int64_t> failed{0};
+    BatchMemory memory;  // as the scan's workers
     auto start = std::chrono::steady_clock::now();
     std::vector<std::thread> pool;
     for (int t = 0; t < threads; ++t) {
       pool.emplace_back([&] {
         for (size_t i; (i = next++) < files.size();) {
           if (!ReadRadiograph(files[i]).ok()) ++failed;
+          memory.ImageDone();
         }
       });
     }
@@ -304,6 +309,7 @@ int main(int argc, char** argv) {
   bool generate_only = false;
   int records = 0;
   int stages = 0;
+  std::vector<int> counts;
   for (int i = 1; i + 1 < argc; i += 2) {
     std::string flag = argv[i];
     if (flag == "--dir") dir = argv[i + 1];
@@ -313,6 +319,7 @@ int main(int argc, char** argv) {
     if (flag == "--uncompressed") uncompressed = std::atoi(argv[i + 1]) != 0;
     if (flag == "--records") records = std::atoi(argv[i + 1]);
     if (flag == "--stages") stages = std::atoi(argv[i + 1]);
+    if (flag == "--counts") counts = ParseThreads(argv[i + 1]);
     if (flag == "--generate-only") generate_only = std::atoi(argv[i + 1]) != 0;
   }
   struct Set {
@@ -326,6 +333,32 @@ int main(int argc, char** argv) {
   if (generate_only) {
     for (const Set& set : sets) {
       if (set.count > 0) EnsureBatch(dir / set.folder, set.count, set.pixel_mm, std::nullopt);
+    }
+    return 0;
+  }
+  if (!counts.empty()) {
+    int t = threads.empty() ? 2 : threads.back();
+    std::printf("| set | threads | images | decode peak MiB | scan peak MiB | decode CPU ms/img | "
+                "scan CPU ms/img | scan/decode CPU | failed | load |\n"
+                "|---|---|---|---|---|---|---|---|---|---|\n");
+    for (const Set& set : sets) {
+      if (set.count <= 0) continue;
+      EnsureBatch(dir / set.folder, set.count, set.pixel_mm, std::nullopt);
+      std::vector<fs::path> all = DicomFiles(dir / set.folder);
+      for (int count : counts) {
+        if (count <= 0 || count > set.count || static_cast<size_t>(count) > all.size()) continue;
+        std::vector<fs::path> files(all.begin(), all.begin() + count);
+        PassResult decode = DecodeOnly(files, t);
+        PassResult scan = FullScan(files, t, dir / "bench-store.db");
+        double load[1] = {0.0};
+        if (getloadavg(load, 1) != 1) load[0] = -1.0;
+        std::printf("| %-9s | %d | %5d | %6.1f | %6.1f | %6.1f | %6.1f | %5.2f | %lld | %4.1f |\n",
+                    set.name, t, count, decode.max_rss_kib / 1024.0, scan.max_rss_kib / 1024.0,
+                    1000.0 * decode.cpu_seconds / decode.images,
+                    1000.0 * scan.cpu_seconds / scan.images, scan.cpu_seconds / decode.cpu_seconds,
+                    static_cast<long long>(scan.failed), load[0]);
+        std::fflush(stdout);
+      }
     }
     return 0;
   }

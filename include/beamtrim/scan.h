@@ -129,6 +129,28 @@ std::string ReasonKey(const std::string& file, const std::string& reason);
 // idempotent; the scan calls it, and so should any pass that is compared with a scan.
 void TuneAllocatorForBatch();
 
+// Bounds the memory a batch keeps: every `every` finished images, the C allocator's free
+// memory is given back to the system (glibc malloc_trim). With TuneAllocatorForBatch the
+// allocator keeps freed image buffers for reuse, and images of different sizes fragment its
+// heaps, so without this the resident memory creeps up with the number of images
+// (docs/performance.md). Trimming after every image would fault the pages in again for each
+// one; every `every` images costs that once per `every`. Thread-safe: any worker calls
+// ImageDone(); the call that completes a period trims. `every` <= 0 never trims.
+class BatchMemory {
+ public:
+  static constexpr int kDefaultEvery = 16;
+  explicit BatchMemory(int every = kDefaultEvery);
+  // One image finished; true when this call trimmed.
+  bool ImageDone();
+  int64_t images() const { return images_.load(); }
+  int64_t trims() const { return trims_.load(); }
+
+ private:
+  int every_;
+  std::atomic<int64_t> images_{0};
+  std::atomic<int64_t> trims_{0};
+};
+
 // Scans the given files into an open store. `stop` (optional) ends the scan early: files not
 // yet started are left for the next run; measured ones are still written.
 Result<ScanSummary> ScanFiles(const std::vector<std::filesystem::path>& files, Store& store,

@@ -165,6 +165,18 @@ void TuneAllocatorForBatch() {
 #endif
 }
 
+BatchMemory::BatchMemory(int every) : every_(every) {}
+
+bool BatchMemory::ImageDone() {
+  const int64_t n = ++images_;
+  if (every_ <= 0 || n % every_ != 0) return false;
+#if defined(__GLIBC__)
+  malloc_trim(0);
+#endif
+  ++trims_;
+  return true;
+}
+
 Status ScanOptions::Validate() const {
   if (inputs.empty()) return MakeError(ErrorKind::kInvalidInput, "", "no input paths", "PATH");
   if (store_file.empty()) return MakeError(ErrorKind::kInvalidInput, "", "required", "--store");
@@ -210,6 +222,7 @@ Result<ScanSummary> store_internal::RunScan(const std::vector<std::filesystem::p
   std::optional<Error> lookup_error;
   auto stopping = [&] { return halt.load() || (stop && stop->load()); };
 
+  BatchMemory memory;
   queue.SetProducers(threads);
   std::vector<std::thread> workers;
   for (int t = 0; t < threads; ++t) {
@@ -222,7 +235,9 @@ Result<ScanSummary> store_internal::RunScan(const std::vector<std::filesystem::p
           halt = true;
           break;
         }
+        const bool measured = !item.already_stored;
         queue.Push(std::move(item));
+        if (measured) memory.ImageDone();
       }
       queue.ProducerDone();
     });

@@ -439,3 +439,64 @@ TEST_CASE("TerminalProgressRedrawsOneBarAndPrintsErrorsAboveIt") {
         std::string::npos);
   CHECK(text.find("3 ok, 0 skipped, 1 failed") != std::string::npos);
 }
+
+// BatchMemory: the period is a count of finished images over all threads, so exactly
+// images / every calls trim, whichever threads make them (common practice, no single source:
+// a shared atomic counter modulo the period). The memory given back itself is the C
+// library's business (glibc malloc_trim) and is measured by bench_scan, not asserted here.
+TEST_CASE("BatchMemoryTrimsOncePerPeriodOfFinishedImagesAcrossThreads") {
+  BatchMemory memory(16);
+  std::atomic<int> trimmed{0};
+  std::vector<std::thread> threads;
+  for (int t = 0; t < 4; ++t) {
+    threads.emplace_back([&] {
+      for (int i = 0; i < 100; ++i) {
+        if (memory.ImageDone()) ++trimmed;
+      }
+    });
+  }
+  for (std::thread& t : threads) t.join();
+  CHECK(memory.images() == 400);
+  CHECK(memory.trims() == 400 / 16);
+  CHECK(trimmed.load() == 400 / 16);
+
+  BatchMemory never(0);
+  for (int i = 0; i < 50; ++i) CHECK_FALSE(never.ImageDone());
+  CHECK(never.trims() == 0);
+}
+
+// Trimming between images must not change what is stored: the same files scanned with an
+// extra trim after every image and without give the same rows (the allocator only decides
+// where memory comes from; common practice, no single source).
+TEST_CASE("ScanRowsAreTheSameWithAndWithoutTrimmingAfterEveryImage") {
+  TempDir dir;
+  auto files = MakeFiles(dir, 40);
+  // Calls ImageDone after each image, as the scan's workers do, so trims fall between images.
+  class Trimming : public ImageMeasurer {
+   public:
+    Trimming(const ImageMeasurer& inner, BatchMemory& memory) : inner_(inner), memory_(memory) {}
+    MeasuredImage Measure(const std::filesystem::path& file) const override {
+      MeasuredImage m = inner_.Measure(file);
+      memory_.ImageDone();
+      return m;
+    }
+
+   private:
+    const ImageMeasurer& inner_;
+    BatchMemory& memory_;
+  };
+  FakeMeasurer fake;
+  BatchMemory every_image(1);
+  Trimming trimming(fake, every_image);
+  {
+    auto trimmed = OpenOrFail(dir / "trimmed.db");
+    ScanOrFail(files, *trimmed, trimming, Options(2));
+    auto plain = OpenOrFail(dir / "plain.db");
+    ScanOrFail(files, *plain, fake, Options(2));
+  }
+  CHECK(every_image.trims() == 40);
+  auto expected = Rows(dir / "plain.db", "images");
+  auto got = Rows(dir / "trimmed.db", "images");
+  REQUIRE(expected.size() == 40);
+  CHECK(got == expected);
+}
