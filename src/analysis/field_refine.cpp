@@ -312,13 +312,25 @@ RefinedSide RefineSide(const Image& image, const Line& coarse, Point2d a, Point2
   Line line = coarse;
   double half = search_px;
   ProfileSet set;
-  for (int pass = 0; pass < 2; ++pass) {
+  // Second pass: a narrower window around the fitted line, wide enough for the penumbra. A
+  // long SID or a large focal spot can make the penumbra wider than the search window; the
+  // profiles then end inside the transition (its 10-90 % width exceeds the half-window), and
+  // the window grows to three penumbra widths and the pass is repeated. Exposure profiles
+  // only: on processed images the wider window reached into edge-enhancement halos and
+  // anatomy and made the fits worse on the benchmark.
+  const double widest = linear ? std::max(search_px, 16.0 * factor) : search_px;
+  // Scale of the first line fit: the coarse line may lie anywhere in the window; after a pass
+  // on truncated profiles, within a fraction of the penumbra.
+  double fit_scale = half / 2;
+  for (int pass = 0; pass < 4; ++pass) {
     set = SampleProfiles(image, line, a, b, half, linear, definition, valid, factor);
     if (set.points.size() < 3) return out;
-    line = RobustLineFit(set.points, line, pass == 0 ? half / 2 : 1.0, &out.inlier_share);
-    // Second pass: a narrower window around the fitted line, wide enough for the penumbra.
-    half = std::max(8.0, 3.0 * MedianOf(set.penumbras));
-    half = std::min(half, search_px);
+    line = RobustLineFit(set.points, line, fit_scale, &out.inlier_share);
+    const double penumbra = MedianOf(set.penumbras);
+    const bool truncated = penumbra > half && half < widest;
+    if (pass >= 1 && !truncated) break;
+    half = truncated ? std::min(3.0 * penumbra, widest) : std::clamp(3.0 * penumbra, 8.0, search_px);
+    fit_scale = truncated ? std::max(1.0, penumbra / 4) : 1.0;
   }
   if (!linear && definition == EdgeDefinition::kHalfTransition) {
     line = MoveToSymmetricExposurePoint(image, line, a, b, half, valid, factor);

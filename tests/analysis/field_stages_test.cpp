@@ -161,6 +161,29 @@ TEST_CASE("HalfTransitionUsesLocalLevelsNotTheProfileEnds") {
   CHECK(std::fabs(c.offset - 1.0) < 0.3);
 }
 
+TEST_CASE("RefinementWidensItsWindowForAPenumbraWiderThanTheSearch") {
+  // A long SID and a large focal spot give a penumbra (trade notes: P = f (SID - d) / d) of
+  // 60 px here, far wider than the 24 px search window: the window must grow until the
+  // profiles hold both plateaus, and the edge is then found at the ramp centre.
+  testimg::Spec s;
+  s.width = 700;
+  s.height = 600;
+  s.cx = 350;
+  s.cy = 300;
+  s.half = {200, 190, 180, 170};
+  s.penumbra = 60.0;
+  const Image img = testimg::Render(s);
+  const Line truth = testimg::SideLines(s)[0];  // left side, normal pointing out of the field
+  const Line start{truth.nx, truth.ny, truth.c + 9.0};  // coarse line 9 px off
+  const Point2d a{350 - 200, 200}, b{350 - 200, 400};
+  const RefinedSide r = RefineSide(img, start, a, b, 24.0, true, EdgeDefinition::kHalfTransition,
+                                   nullptr, 8);
+  REQUIRE(r.ok);
+  CHECK(std::fabs(r.line.c - truth.c) < 0.5);
+  REQUIRE(r.penumbra_px.has_value());
+  CHECK(*r.penumbra_px == doctest::Approx(0.8 * 60.0).epsilon(0.1));  // 10-90 % of a ramp
+}
+
 TEST_CASE("QuarterMaximumLevelLiesOutsideTheHalfTransition") {
   // 21 CFR 1020.30(b): the x-ray field edge is where exposure is one fourth of the maximum.
   // Ramp 0 -> 1000 over 10 px centred at 0: 250 is reached 2.5 px outward of the centre.
