@@ -52,19 +52,23 @@ bool Compatible(const Rectangle& r, Side s, double position) {
 
 // All blades block the same beam: every blocked plateau lies well below the open level of the
 // strongest side. A side whose "outside" is as bright as that open level is not a blade
-// (typically an edge-enhancement halo or an anatomy edge inside the field).
+// (typically an edge-enhancement halo or an anatomy edge inside the field). A side whose
+// "inside" is hardly above the blocked level is no field edge either (an edge between two
+// blocked levels); the blocked level for that test is the darkest plateau of all sides, as
+// one plateau can be lifted by scatter or a display curve while dense anatomy lowers the
+// open level along another side.
 void DropInconsistent(Rectangle& r) {
   const SideEvidence* ref = nullptr;
+  double darkest = std::numeric_limits<double>::infinity();
   for (const auto& s : r.sides) {
     if (s && (!ref || s->score > ref->score)) ref = &*s;
+    if (s) darkest = std::min(darkest, s->outside);
   }
   if (!ref) return;
   const double limit = ref->outside + 0.5 * (ref->inside - ref->outside);
-  const double ref_outside = ref->outside, ref_inside = ref->inside;
+  const double floor = darkest + 0.25 * (ref->inside - darkest);
   for (auto& s : r.sides) {
-    if (s && (s->outside > limit || s->inside < ref_outside + 0.25 * (ref_inside - ref_outside))) {
-      s.reset();
-    }
+    if (s && (s->outside > limit || s->inside < floor)) s.reset();
   }
 }
 
