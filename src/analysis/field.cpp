@@ -285,7 +285,13 @@ FieldMeasurement DetectField(const Image& image, const FieldContext& ctx,
     SideMeasurement& sm = m.side(s);
     const SideEvidence& ev = *best.sides[i];
     sm.confidence = SideConfidence(ev, range);
-    if (r.ok && std::fabs(r.line.c - coarse[i]->c) < 4.0 * wk.factor + 0.05 * len) {
+    // The refined line must stay near the coarse one along the part of it that was refined;
+    // comparing the lines' offsets from the image origin instead would count any small change
+    // of angle as a large shift on a field far from the origin.
+    const double moved = r.ok ? std::max(std::fabs(r.line.SignedDistance(a)),
+                                         std::fabs(r.line.SignedDistance(b)))
+                              : 0.0;
+    if (r.ok && moved < 4.0 * wk.factor + 0.05 * len) {
       refined[i] = r.line;
       sm.penumbra_px = r.penumbra_px;
       sm.contrast_ratio = r.contrast_ratio;
