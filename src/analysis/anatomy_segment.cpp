@@ -347,6 +347,7 @@ struct Candidate {
   bool patient = false;  // something wider than lead strokes or a plate lies outside the mask
   bool touches_edge = false;
   int area = 0;
+  cv::Mat background;    // local direct-exposure level, when LocalStep measured it
 };
 
 // The skin line is a step: 1-3 mm outside direct exposure the attenuation has already risen
@@ -396,11 +397,12 @@ constexpr double kMinRemoved = 2.0;
 // `removed` (optional) is the part of the previous candidate left outside this one: it must be
 // attenuating like tissue (its median at least kMinRemoved noise units above the open field),
 // else the split only divided the open field's noise or shading and the step is 0.
-double LocalStep(const Working& w, const Candidate& c, double pixel_noise, double working_mm,
+// The local background is kept in the candidate, as Segment needs it again if it is chosen.
+double LocalStep(const Working& w, Candidate& c, double pixel_noise, double working_mm,
                  const cv::Mat& removed) {
-  cv::Mat background = LocalBackground(w, c.mask, c.surface, working_mm);
-  if (background.empty()) return 0.0;
-  cv::Mat residual = background - w.log;
+  c.background = LocalBackground(w, c.mask, c.surface, working_mm);
+  if (c.background.empty()) return 0.0;
+  cv::Mat residual = c.background - w.log;
   std::vector<float> in = Values(residual, c.mask);
   double noise = std::max(RobustSigma(in), pixel_noise);
   if (!removed.empty() && cv::countNonZero(removed) > 0 &&
@@ -548,7 +550,8 @@ Segmentation Segment(const Working& w, const std::array<double, 2>& spacing, dou
     s.threshold = 0.0;
     return s;
   }
-  s.background = LocalBackground(w, c.mask, c.surface, working_mm);
+  s.background = c.background.empty() ? LocalBackground(w, c.mask, c.surface, working_mm)
+                                       : c.background;
   if (!s.background.empty()) {
     s.residual = s.background - w.log;
     s.noise = std::max(RobustSigma(Values(s.residual, c.mask)), pixel_noise);
