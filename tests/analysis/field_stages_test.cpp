@@ -184,6 +184,28 @@ TEST_CASE("RefinementWidensItsWindowForAPenumbraWiderThanTheSearch") {
   CHECK(*r.penumbra_px == doctest::Approx(0.8 * 60.0).epsilon(0.1));  // 10-90 % of a ramp
 }
 
+TEST_CASE("ProcessedEdgeIsRefinedToTheBladeProjectionNotTheSpanCentre") {
+  // Synthetic ground truth: a blade shadow with a 16 px linear exposure ramp, shown on a log
+  // display (Spec::processed). The span centre lies towards the blocked side (by the algebra of
+  // the logarithm, more than 1 px here); the refinement must move the line to the ramp centre.
+  testimg::Spec s;
+  s.width = 500;
+  s.height = 460;
+  s.cx = 250;
+  s.cy = 230;
+  s.half = {150, 150, 140, 140};
+  s.penumbra = 16.0;
+  s.processed = true;
+  const Image img = testimg::Render(s);
+  const Line truth = testimg::SideLines(s)[0];
+  const Line start{truth.nx, truth.ny, truth.c + 2.0};
+  const Point2d a{100, 150}, b{100, 310};
+  const RefinedSide r = RefineSide(img, start, a, b, 24.0, false, EdgeDefinition::kHalfTransition,
+                                   nullptr, 4);
+  REQUIRE(r.ok);
+  CHECK(std::fabs(r.line.c - truth.c) < 0.4);
+}
+
 TEST_CASE("QuarterMaximumLevelLiesOutsideTheHalfTransition") {
   // 21 CFR 1020.30(b): the x-ray field edge is where exposure is one fourth of the maximum.
   // Ramp 0 -> 1000 over 10 px centred at 0: 250 is reached 2.5 px outward of the centre.
