@@ -250,7 +250,7 @@ FieldMeasurement DetectField(const Image& image, const FieldContext& ctx,
   Frame best_frame;
   for (double a : angles) {
     Frame f = MakeFrame(wk, prep.grad, a);
-    Rectangle r = BestRectangle(f, range, depth_px);
+    Rectangle r = BestRectangle(f, wk.lo, range, depth_px);
     if (r.score > best.score) { best = r; best_frame = std::move(f); }
   }
 

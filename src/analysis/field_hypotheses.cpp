@@ -12,6 +12,10 @@ namespace beamtrim::field_internal {
 namespace {
 
 constexpr double kDeg = M_PI / 180.0;
+// Share of the robust value range above which a side's blocked plateau, with a step below
+// kSmallStep of the range, is taken for an anatomy outline (DropInconsistent).
+constexpr double kBrightPlateau = 0.6;
+constexpr double kSmallStep = 0.3;
 
 bool Vertical(Side s) { return s == Side::kLeft || s == Side::kRight; }
 
@@ -56,8 +60,12 @@ bool Compatible(const Rectangle& r, Side s, double position) {
 // "inside" is hardly above the blocked level is no field edge either (an edge between two
 // blocked levels); the blocked level for that test is the darkest plateau of all sides, as
 // one plateau can be lifted by scatter or a display curve while dense anatomy lowers the
-// open level along another side.
-void DropInconsistent(Rectangle& r) {
+// open level along another side. The outside test also measures from the darkest plateau: the
+// strongest side may be a false one whose "blocked" level is anatomy.
+// Without any reference side, a blade still removes most of the exposure: a "blocked" plateau
+// above 60 % of the image's robust range reached by a step under 30 % of it is an anatomy
+// outline with more anatomy beyond (an arm beside the chest, the body's edge), not a blade.
+void DropInconsistent(Rectangle& r, double lo, double range) {
   const SideEvidence* ref = nullptr;
   double darkest = std::numeric_limits<double>::infinity();
   for (const auto& s : r.sides) {
@@ -65,10 +73,14 @@ void DropInconsistent(Rectangle& r) {
     if (s) darkest = std::min(darkest, s->outside);
   }
   if (!ref) return;
-  const double limit = ref->outside + 0.5 * (ref->inside - ref->outside);
+  const double limit = darkest + 0.5 * (ref->inside - darkest);
   const double floor = darkest + 0.25 * (ref->inside - darkest);
+  const double bright_plateau = lo + kBrightPlateau * range;
+  const double small_step = kSmallStep * range;
   for (auto& s : r.sides) {
-    if (s && (s->outside > limit || s->inside < floor)) s.reset();
+    if (!s) continue;
+    const bool anatomy_outline = s->outside > bright_plateau && s->step < small_step;
+    if (s->outside > limit || s->inside < floor || anatomy_outline) s.reset();
   }
 }
 
@@ -96,7 +108,7 @@ void MeasureWithinNeighbours(const Frame& frame, double range, double depth_px, 
 
 }  // namespace
 
-Rectangle BestRectangle(const Frame& frame, double range, double depth_px) {
+Rectangle BestRectangle(const Frame& frame, double lo, double range, double depth_px) {
   Rectangle r;
   r.angle_deg = frame.angle_deg;
   for (int pass = 0; pass < 4; ++pass) {
@@ -118,7 +130,7 @@ Rectangle BestRectangle(const Frame& frame, double range, double depth_px) {
       slot = best;
     }
     MeasureWithinNeighbours(frame, range, depth_px, r);
-    DropInconsistent(r);
+    DropInconsistent(r, lo, range);
     if (!changed && pass > 0) break;
   }
   // Final check of every side over the span its neighbours leave.
@@ -129,7 +141,7 @@ Rectangle BestRectangle(const Frame& frame, double range, double depth_px) {
                                    range, depth_px, true);
     if (ev.blade) slot = ev; else slot.reset();
   }
-  DropInconsistent(r);
+  DropInconsistent(r, lo, range);
   // A side with bright regions far beyond its dark strip is kept only when a side with a
   // clean half-plane shows the same blocked level (a second exposure beyond a real blade);
   // otherwise it is more likely an anatomy edge with tissue beyond.

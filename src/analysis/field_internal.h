@@ -132,8 +132,9 @@ struct Rectangle {
   // larger one (see SplitAtBlockedBand).
   bool split = false;
 };
-// Best rectangle at one angle by coordinate ascent over the four sides.
-Rectangle BestRectangle(const Frame& frame, double range, double depth_px);
+// Best rectangle at one angle by coordinate ascent over the four sides. `lo` and `range`: the
+// robust low end and extent of the working values (WorkingImage::lo, hi - lo).
+Rectangle BestRectangle(const Frame& frame, double lo, double range, double depth_px);
 
 // Two exposures side by side on one plate (computed radiography) make a rectangle whose
 // outer blades belong to different fields, with a blocked band right across it. Such a band
