@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <utility>
 #include <vector>
 
 #include "analysis/field_internal.h"
@@ -209,6 +210,50 @@ double BandMedian(const Frame& f, bool vertical, Band band, int a_lo, int a_hi) 
   return v[v.size() / 2];
 }
 
+// Share of positions whose value lies within `tolerance` of the least-squares line through
+// all (position, value) pairs.
+double ShareOnFittedLine(const std::vector<std::pair<double, double>>& pts, double tolerance) {
+  if (pts.size() < 3) return 0.0;
+  double mx = 0.0, my = 0.0;
+  for (const auto& [x, y] : pts) { mx += x; my += y; }
+  mx /= pts.size();
+  my /= pts.size();
+  double sxx = 0.0, sxy = 0.0;
+  for (const auto& [x, y] : pts) { sxx += (x - mx) * (x - mx); sxy += (x - mx) * (y - my); }
+  const double slope = sxx > 0.0 ? sxy / sxx : 0.0;
+  int on = 0;
+  for (const auto& [x, y] : pts) on += std::fabs(y - (my + slope * (x - mx))) <= tolerance ? 1 : 0;
+  return static_cast<double>(on) / pts.size();
+}
+
+// For the less straight of a band's two edges, the share of the along-edge positions where the
+// dark run through the band ends on a straight line (within a couple of pixels). The gap
+// between two exposures is bounded by blade shadows, straight along the whole field even when
+// the two fields differ in angle; a dense organ or bone as dark as the blocked plateau has a
+// curved outline, so its dark run ends off any one line.
+double StraightEdgeShare(const Frame& f, bool vertical, Band band, int c_lo, int c_hi, int a_lo,
+                         int a_hi, double blocked_below) {
+  auto dark = [&](int c, int a) {
+    const int row = vertical ? a : c, col = vertical ? c : a;
+    if (row < 0 || col < 0 || row >= f.value.rows || col >= f.value.cols || !f.valid(row, col)) {
+      return false;
+    }
+    return f.value(row, col) < blocked_below;
+  };
+  std::vector<std::pair<double, double>> low_ends, high_ends;
+  const int mid = (band.lo + band.hi) / 2;
+  for (int a = a_lo; a < a_hi; ++a) {
+    if (!dark(mid, a)) continue;
+    int lo = mid, hi = mid;
+    while (lo - 1 >= c_lo && dark(lo - 1, a)) --lo;
+    while (hi + 1 < c_hi && dark(hi + 1, a)) ++hi;
+    low_ends.emplace_back(a, lo);
+    high_ends.emplace_back(a, hi);
+  }
+  const double tolerance = 2.0;
+  return std::min(ShareOnFittedLine(low_ends, tolerance), ShareOnFittedLine(high_ends, tolerance));
+}
+
 }  // namespace
 
 bool SplitAtBlockedBand(const Frame& frame, double range, double depth_px, double min_band_px,
@@ -251,6 +296,7 @@ bool SplitAtBlockedBand(const Frame& frame, double range, double depth_px, doubl
     // brighter than that plateau or bounded by weaker steps.
     if (ev.step < 0.6 * (open - typical_outside)) continue;
     if (BandMedian(frame, vertical, *band, a_lo, a_hi) > typical_outside + 0.25 * (open - typical_outside)) continue;
+    if (StraightEdgeShare(frame, vertical, *band, c_lo, c_hi, a_lo, a_hi, below) < 0.7) continue;
     ev.blade = true;  // the half-plane beyond holds the other exposure, by construction
     ev.why_not.clear();
     rect->sides[static_cast<int>(cut)] = ev;
