@@ -6,6 +6,7 @@
 // Usage:
 //   bench_scan [--dir DIR] [--small N] [--full N] [--threads 1,2] [--uncompressed 0|1]
 //              [--records N] [--stages N] [--generate-only 1] [--counts 25,50,100,200]
+//              [--field N] [--field-repeat R]
 // DIR keeps the generated images between runs (default: a folder under /tmp); the images are
 // the generator's usual mix of transfer syntaxes, and `--uncompressed 1` (the default) adds
 // rows for the uncompressed files among them. `--stages N` times read, field, anatomy and
@@ -13,6 +14,10 @@
 // replaces the tables by the memory curve: for each count, the decode-only pass and the scan
 // on the first that many files of each set, with the last thread count, peak memory and CPU
 // time per image side by side, so growth with the number of images shows in one run.
+// `--field N` times field detection alone on the first N files of each set, read once and
+// held in memory, run R times (`--field-repeat`, default 5), CPU ms per detection, and prints
+// a digest of every result (polygon, sides, notes, bit for bit), so a speed change that alters
+// any result shows as a different digest; under `perf record` it profiles the detector alone.
 #include <sys/resource.h>
 #include <sys/time.h>
 #include <time.h>
@@ -22,6 +27,7 @@
 #include <algorithm>
 #include <atomic>
 #include <chrono>
+#include <cstdint>
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
@@ -259,6 +265,69 @@ void Stages(const char* set, const std::vector<fs::path>& files) {
   std::fflush(stdout);
 }
 
+// FNV-1a over the bytes of every value of a field measurement that the pipeline uses.
+struct Digest {
+  uint64_t h = 1469598103934665603ull;
+  void Bytes(const void* p, size_t n) {
+    const unsigned char* b = static_cast<const unsigned char*>(p);
+    for (size_t i = 0; i < n; ++i) h = (h ^ b[i]) * 1099511628211ull;
+  }
+  void Double(double v) { Bytes(&v, sizeof v); }
+  void Text(const std::string& s) { Bytes(s.data(), s.size()); Bytes("\0", 1); }
+  void Field(const FieldMeasurement& f) {
+    for (const Point2d& p : f.polygon_px) { Double(p.x); Double(p.y); }
+    Double(f.area_px);
+    Double(f.area_mm2.value_or(-1.0));
+    Double(f.rotation_deg);
+    Double(f.confidence);
+    for (const SideMeasurement& s : f.sides) {
+      Double(s.visible ? 1.0 : 0.0);
+      Double(s.confidence);
+      Double(s.contrast_ratio);
+      Double(s.penumbra_px.value_or(-1.0));
+      if (s.line_px) { Double(s.line_px->a.x); Double(s.line_px->a.y); Double(s.line_px->b.x); Double(s.line_px->b.y); }
+      Text(s.reason);
+    }
+    Double(f.open + 2.0 * f.blanked + 4.0 * f.cropped + 8.0 * f.double_exposure);
+    for (Side s : f.blanked_or_cropped_sides) Double(static_cast<double>(s));
+    for (const std::string& n : f.notes) Text(n);
+  }
+};
+
+// Field detection alone on images held in memory (see the usage above).
+void FieldOnly(const char* set, const std::vector<fs::path>& files, int repeat) {
+  RegisterDicomCodecs();
+  TuneAllocatorForBatch();
+  struct Input {
+    Image pixels;
+    FieldContext context;
+  };
+  std::vector<Input> inputs;
+  for (const fs::path& file : files) {
+    auto r = ReadRadiograph(file);
+    if (!r) continue;
+    FieldContext context = FieldContextFromHeader(r->header, r->linear);
+    inputs.push_back({std::move(r->pixels), context});
+  }
+  if (inputs.empty()) return;
+  timespec a{}, b{};
+  Digest digest;
+  clock_gettime(CLOCK_THREAD_CPUTIME_ID, &a);
+  for (int rep = 0; rep < repeat; ++rep) {
+    for (const Input& in : inputs) {
+      FieldMeasurement f = DetectField(in.pixels, in.context);
+      if (rep == 0) digest.Field(f);
+    }
+  }
+  clock_gettime(CLOCK_THREAD_CPUTIME_ID, &b);
+  const double ms = (b.tv_sec - a.tv_sec) * 1e3 + (b.tv_nsec - a.tv_nsec) / 1e6;
+  std::printf("\nfield alone, %s, %zu images x %d, one thread: %.2f CPU ms per detection, "
+              "results digest %016llx\n",
+              set, inputs.size(), repeat, ms / (static_cast<double>(inputs.size()) * repeat),
+              static_cast<unsigned long long>(digest.h));
+  std::fflush(stdout);
+}
+
 // One table row. Wall-time rates and their ratio are what the issue asks for; the CPU time
 // (user + system, all threads of the pass) and its ratio are given too, because on a shared
 // machine wall time depends on what the others run; `load` is the 1-minute load average
@@ -309,6 +378,7 @@ int main(int argc, char** argv) {
   bool generate_only = false;
   int records = 0;
   int stages = 0;
+  int field_only = 0, field_repeat = 5;
   std::vector<int> counts;
   for (int i = 1; i + 1 < argc; i += 2) {
     std::string flag = argv[i];
@@ -319,6 +389,8 @@ int main(int argc, char** argv) {
     if (flag == "--uncompressed") uncompressed = std::atoi(argv[i + 1]) != 0;
     if (flag == "--records") records = std::atoi(argv[i + 1]);
     if (flag == "--stages") stages = std::atoi(argv[i + 1]);
+    if (flag == "--field") field_only = std::atoi(argv[i + 1]);
+    if (flag == "--field-repeat") field_repeat = std::max(1, std::atoi(argv[i + 1]));
     if (flag == "--counts") counts = ParseThreads(argv[i + 1]);
     if (flag == "--generate-only") generate_only = std::atoi(argv[i + 1]) != 0;
   }
@@ -333,6 +405,16 @@ int main(int argc, char** argv) {
   if (generate_only) {
     for (const Set& set : sets) {
       if (set.count > 0) EnsureBatch(dir / set.folder, set.count, set.pixel_mm, std::nullopt);
+    }
+    return 0;
+  }
+  if (field_only > 0) {
+    for (const Set& set : sets) {
+      if (set.count <= 0) continue;
+      EnsureBatch(dir / set.folder, set.count, set.pixel_mm, std::nullopt);
+      std::vector<fs::path> files = DicomFiles(dir / set.folder);
+      files.resize(std::min<size_t>(files.size(), std::min(set.count, field_only)));
+      FieldOnly(set.name, files, field_repeat);
     }
     return 0;
   }
