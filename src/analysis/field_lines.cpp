@@ -3,7 +3,10 @@
 // evidence that a boundary is a blade shadow rather than an anatomy edge or an object.
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
+#include <cstring>
 #include <functional>
+#include <limits>
 #include <numeric>
 #include <vector>
 
@@ -70,32 +73,141 @@ struct Direction {
   }
 };
 
-// Calls fn(k, &value, &grad) for every valid pixel at depths k = k0, k0 + k_step, ... < k1
-// (inside the frame) and along-edge indices t = 0, t_step, ...; rows are walked contiguously
-// whatever the side, so the order of the calls is not t-major: only for order-free sums.
-template <class Fn>
-void ForEachPixel(const Strided& px, Direction d, int k0, int k1, int k_step, int t_step, Fn fn) {
-  if (px.va == 1) {  // t runs down the rows, k along each row
-    for (int t = 0; t < px.along; t += t_step) {
-      const float* v = px.v + t * px.vt;
-      const float* g = px.g ? px.g + t * px.gt : nullptr;
-      const uchar* m = px.m + t * px.mt;
-      for (int k = k0; k < k1; k += k_step) {
-        const int a = d.Across(k);
-        if (m[a]) fn(k, v + a, g ? g + a : nullptr);
+// The largest float not above x: for every float v, v > x exactly when v > FloatAtOrBelow(x),
+// so the counts below compare floats with floats (which vectorises) and count the same pixels
+// as a comparison of the float value promoted to double would.
+float FloatAtOrBelow(double x) {
+  float f = static_cast<float>(x);
+  if (static_cast<double>(f) > x) f = std::nextafter(f, -std::numeric_limits<float>::infinity());
+  return f;
+}
+
+// Counts of the valid pixels of a side's outside, as the reference's `beyond` (field_lines_
+// reference.cpp): near the edge (depths [k0, k1), every along index), `n` valid, `bright` above
+// the bright level, `textured` with gradient above the texture level except at depth `gap`;
+// over the half-plane (depths h0, h0 + 2, ... < h1, along indices 0, 2, ...), `nf` and `bf`.
+// Counts are order-free, so each loop walks a raw row contiguously and branch-free.
+BeyondCounts CountBeyond(const Strided& px, Direction d, int gap, int k0, int k1, int h0, int h1,
+                         double bright_level, double texture_level) {
+  const float bright = FloatAtOrBelow(bright_level);
+  const float texture = FloatAtOrBelow(texture_level);
+  BeyondCounts c;
+  int n = 0, nb = 0, nt = 0, nf = 0, bf = 0;
+  // Count of valid pixels (and of those above the levels) in row pointers v, g, m over
+  // [lo, hi) with unit or double stride.
+  auto near_run = [&](const float* v, const float* g, const uchar* m, int lo, int hi) {
+    for (int i = lo; i < hi; ++i) {
+      const int ok = m[i] != 0;
+      n += ok;
+      nb += ok & (v[i] > bright);
+      nt += ok & (g[i] > texture);
+    }
+  };
+  auto far_run = [&](const float* v, const uchar* m, int lo, int hi) {
+    for (int i = lo; i < hi; i += 2) {
+      const int ok = m[i] != 0;
+      nf += ok;
+      bf += ok & (v[i] > bright);
+    }
+  };
+  const bool gap_in = k0 == gap && k1 > k0;  // the depth-gap pixels count for n and bright only
+  if (px.va == 1) {  // t runs down the rows, the depth along each row
+    if (k1 > k0) {
+      const int a_lo = std::min(d.Across(k0), d.Across(k1 - 1));
+      const int a_hi = std::max(d.Across(k0), d.Across(k1 - 1)) + 1;
+      const int a_gap = d.Across(gap);
+      for (int t = 0; t < px.along; ++t) {
+        const float* v = px.v + t * px.vt;
+        const float* g = px.g + t * px.gt;
+        const uchar* m = px.m + t * px.mt;
+        near_run(v, g, m, a_lo, a_hi);
+        if (gap_in) nt -= (m[a_gap] != 0) & (g[a_gap] > texture);
       }
     }
-  } else {  // k runs down the rows, t along each row
-    for (int k = k0; k < k1; k += k_step) {
+    if (h1 > h0) {
+      const int last = h0 + ((h1 - 1 - h0) / 2) * 2;
+      const int a_lo = std::min(d.Across(h0), d.Across(last));
+      const int a_hi = std::max(d.Across(h0), d.Across(last)) + 1;
+      for (int t = 0; t < px.along; t += 2) {
+        far_run(px.v + t * px.vt, px.m + t * px.mt, a_lo, a_hi);
+      }
+    }
+  } else {  // the depth runs down the rows, t along each row
+    for (int k = k0; k < k1; ++k) {
       const int a = d.Across(k);
       const float* v = px.v + a * px.va;
-      const float* g = px.g ? px.g + a * px.ga : nullptr;
+      const float* g = px.g + a * px.ga;
       const uchar* m = px.m + a * px.ma;
-      for (int t = 0; t < px.along; t += t_step) {
-        if (m[t]) fn(k, v + t, g ? g + t : nullptr);
+      if (k == gap) {
+        const int keep = nt;
+        near_run(v, g, m, 0, px.along);
+        nt = keep;
+      } else {
+        near_run(v, g, m, 0, px.along);
       }
     }
+    for (int k = h0; k < h1; k += 2) {
+      const int a = d.Across(k);
+      far_run(px.v + a * px.va, px.m + a * px.ma, 0, px.along);
+    }
   }
+  c.n = n;
+  c.bright = nb;
+  c.textured = nt;
+  c.nf = nf;
+  c.bf = bf;
+  return c;
+}
+
+}  // namespace
+
+// fmod(x, 90.0) for 270 <= x < 540 (x = psi - a + 405 with psi, a within a rounding error of
+// [-45, 45)): fmod is exact, and so is each subtraction of 90 here (x and every difference
+// are multiples of x's ulp and fit in the mantissa), so the result is the same double;
+// anything else (NaN) goes to fmod itself.
+double FmodNinety(double x) {
+  double r = x - 270.0;
+  while (r >= 90.0) r -= 90.0;
+  if (!(x >= 270.0 && x < 540.0 && r >= 0.0)) return std::fmod(x, 90.0);
+  return r;
+}
+
+// std::lround(x) without the library call: the integer part by truncation, then the exact
+// remainder x - trunc(x) decides, half away from zero, as lround does; beyond 2^52 (where
+// every double is an integer) and for NaN, lround itself.
+long RoundHalfAway(double x) {
+  if (!(std::fabs(x) < 4503599627370496.0)) return std::lround(x);
+  long t = static_cast<long>(x);
+  const double frac = x - static_cast<double>(t);
+  if (frac >= 0.5) ++t;
+  else if (frac <= -0.5) --t;
+  return t;
+}
+
+namespace {
+
+// Largest sum of three neighbouring accumulator cells a[o-1] + a[o] + a[o+1], 0 < o < n - 1,
+// or 0 when there is none larger. The cells hold sums of positive votes (no NaN, no -0), so
+// the maximum of the float sums converted once equals the maximum of the converted sums taken
+// one by one; four running maxima let the loop run without a chain of dependent comparisons.
+float LargestTripleSum(const float* a, int n) {
+  float m0 = 0.0f, m1 = 0.0f, m2 = 0.0f, m3 = 0.0f;
+  int o = 1;
+  for (; o + 4 < n; o += 4) {
+    const float s0 = a[o - 1] + a[o] + a[o + 1];
+    const float s1 = a[o] + a[o + 1] + a[o + 2];
+    const float s2 = a[o + 1] + a[o + 2] + a[o + 3];
+    const float s3 = a[o + 2] + a[o + 3] + a[o + 4];
+    m0 = s0 > m0 ? s0 : m0;
+    m1 = s1 > m1 ? s1 : m1;
+    m2 = s2 > m2 ? s2 : m2;
+    m3 = s3 > m3 ? s3 : m3;
+  }
+  for (; o + 1 < n; ++o) {
+    const float s0 = a[o - 1] + a[o] + a[o + 1];
+    m0 = s0 > m0 ? s0 : m0;
+  }
+  return std::max(std::max(m0, m1), std::max(m2, m3));
 }
 
 Direction Outward(Side side, int p) {
@@ -172,14 +284,14 @@ std::vector<double> CandidateAngles(const WorkingImage& working, const cv::Mat1f
            b <= static_cast<int>(std::ceil((psi + kTol + 45.0) / kBin)); ++b) {
         const int bin = ((b % kAngles) + kAngles) % kAngles;
         const double a = -45.0 + bin * kBin;
-        double d = std::fmod(psi - a + 405.0, 90.0) - 45.0;  // circular distance mod 90
+        double d = FmodNinety(psi - a + 405.0) - 45.0;  // circular distance mod 90
         if (std::fabs(d) > kTol) continue;
-        const int q = static_cast<int>(std::lround((phi - a) / 90.0));
+        const int q = static_cast<int>(RoundHalfAway((phi - a) / 90.0));
         const int fam_sign = ((q % 4) + 4) % 4;  // 0: +n1, 1: +n2, 2: -n1, 3: -n2
         const double ca = cos_bin[bin], sa = sin_bin[bin];
         const double px = x + 0.5, py = y + 0.5;
         const double off = (fam_sign % 2 == 0) ? px * ca + py * sa : -px * sa + py * ca;
-        const int o = std::clamp(static_cast<int>(std::lround(off)) + diag, 0, offsets - 1);
+        const int o = std::clamp(static_cast<int>(RoundHalfAway(off)) + diag, 0, offsets - 1);
         acc[(static_cast<size_t>(bin) * 4 + fam_sign) * offsets + o] += m;
       }
     }
@@ -188,9 +300,7 @@ std::vector<double> CandidateAngles(const WorkingImage& working, const cv::Mat1f
   for (int bin = 0; bin < kAngles; ++bin) {
     for (int fs = 0; fs < 4; ++fs) {
       const float* a = &acc[(static_cast<size_t>(bin) * 4 + fs) * offsets];
-      double best = 0.0;
-      for (int o = 1; o + 1 < offsets; ++o) best = std::max(best, double(a[o - 1] + a[o] + a[o + 1]));
-      score[bin] += best;
+      score[bin] += static_cast<double>(LargestTripleSum(a, offsets));
     }
   }
   std::vector<int> order(kAngles);
@@ -204,6 +314,60 @@ std::vector<double> CandidateAngles(const WorkingImage& working, const cv::Mat1f
     for (double o : out) near |= std::fabs(std::fmod(a - o + 405.0, 90.0) - 45.0) < 4.0;
     if (!near) out.push_back(a);
   }
+  return out;
+}
+
+float NthFloat(std::vector<float>& v, size_t k) {
+  const size_t n = v.size();
+  // Small inputs, and the cases below where the order of equal values could matter, go to
+  // std::nth_element on the vector as given, which is then exactly the reference.
+  auto reference = [&] {
+    std::nth_element(v.begin(), v.begin() + k, v.end());
+    return v[k];
+  };
+  if (n < 256) return reference();
+  // Order-preserving keys: the unsigned order of the keys is the order of the floats, except
+  // that it puts -0 before +0 (equal as floats) and sorts NaN, which floats do not order.
+  thread_local std::vector<uint32_t> keys;
+  keys.resize(n);
+  uint32_t nan = 0;
+  for (size_t i = 0; i < n; ++i) {
+    uint32_t u;
+    std::memcpy(&u, &v[i], sizeof u);
+    nan |= static_cast<uint32_t>((u & 0x7fffffffu) > 0x7f800000u);
+    keys[i] = u ^ (static_cast<uint32_t>(-static_cast<int32_t>(u >> 31)) | 0x80000000u);
+  }
+  if (nan) return reference();
+  // Most significant byte first: count the digits of the remaining keys, keep those in the
+  // bucket holding rank k (a plateau of similar values shares its first byte, so the first
+  // pass keeps them all without copying).
+  uint32_t* cur = keys.data();
+  size_t m = n, rank = k;
+  uint32_t key = 0;
+  for (int shift = 24; shift >= 0; shift -= 8) {
+    uint32_t count[256] = {};
+    for (size_t i = 0; i < m; ++i) ++count[(cur[i] >> shift) & 0xffu];
+    uint32_t digit = 0;
+    for (;; ++digit) {
+      if (rank < count[digit]) break;
+      rank -= count[digit];
+    }
+    key |= digit << shift;
+    if (count[digit] != m) {
+      size_t w = 0;
+      for (size_t i = 0; i < m; ++i) {
+        if (((cur[i] >> shift) & 0xffu) == digit) cur[w++] = cur[i];
+      }
+      m = w;
+    }
+  }
+  const uint32_t u = (key & 0x80000000u) ? key ^ 0x80000000u : ~key;
+  float out;
+  std::memcpy(&out, &u, sizeof out);
+  // A zero may be +0 or -0 in the input; which one std::nth_element leaves at k depends on
+  // its way of partitioning, so the reference decides. Every other value that compares equal
+  // to the k-th has the same bits.
+  if (out == 0.0f) return reference();
   return out;
 }
 
@@ -227,34 +391,70 @@ std::vector<int> SideCandidates(const Frame& frame, Side side, Span span, int co
   const int n = px.across;
   const bool low_is_outside = side == Side::kLeft || side == Side::kTop;
   // e[p]: sum over the span of (inside - outside) across boundary p, both pixels valid; each
-  // e[p] adds its terms in along-edge order, as the reference does.
+  // e[p] adds its terms in along-edge order, as the reference does. A pair that is not valid
+  // adds +0.0, which leaves the sum as it was (it starts at +0.0 and, rounding to nearest,
+  // never becomes -0.0), so the loops run branch-free.
   std::vector<double> e(n + 1, 0.0);
   const int t0 = std::max(0, span.lo), t1 = std::min(span.hi, px.along);
-  for (int t = t0; t < t1; ++t) {
-    for (int p = 1; p < n; ++p) {
-      if (!px.Valid(t, p) || !px.Valid(t, p - 1)) continue;
-      const float hi = px.Value(t, p), lo = px.Value(t, p - 1);
-      e[p] += low_is_outside ? hi - lo : lo - hi;
+  if (px.va == 1) {  // boundaries along each row: one row adds one term to every e[p]
+    double* ep = e.data();
+    for (int t = t0; t < t1; ++t) {
+      const float* v = px.v + t * px.vt;
+      const uchar* m = px.m + t * px.mt;
+      if (low_is_outside) {
+        for (int p = 1; p < n; ++p) {
+          const float d = v[p] - v[p - 1];
+          ep[p] += (m[p] != 0) & (m[p - 1] != 0) ? static_cast<double>(d) : 0.0;
+        }
+      } else {
+        for (int p = 1; p < n; ++p) {
+          const float d = v[p - 1] - v[p];
+          ep[p] += (m[p] != 0) & (m[p - 1] != 0) ? static_cast<double>(d) : 0.0;
+        }
+      }
+    }
+  } else {  // boundaries between rows: e[p] sums along the row pair, four rows at a time
+    auto term = [&](int p, int t) {
+      const float* v = px.v + p * px.va;
+      const uchar* m = px.m + p * px.ma;
+      const float* w = v - px.va;
+      const uchar* mw = m - px.ma;
+      const float d = low_is_outside ? v[t] - w[t] : w[t] - v[t];
+      return (m[t] != 0) & (mw[t] != 0) ? static_cast<double>(d) : 0.0;
+    };
+    int p = 1;
+    for (; p + 3 < n; p += 4) {
+      double s0 = 0.0, s1 = 0.0, s2 = 0.0, s3 = 0.0;
+      for (int t = t0; t < t1; ++t) {
+        s0 += term(p, t);
+        s1 += term(p + 1, t);
+        s2 += term(p + 2, t);
+        s3 += term(p + 3, t);
+      }
+      e[p] = s0, e[p + 1] = s1, e[p + 2] = s2, e[p + 3] = s3;
+    }
+    for (; p < n; ++p) {
+      double s0 = 0.0;
+      for (int t = t0; t < t1; ++t) s0 += term(p, t);
+      e[p] = s0;
     }
   }
   return StrongestBoundaries(e, count);
 }
 
-Span StepSpan(const Frame& frame, Side side, int position, Span span) {
-  SideView view{frame, side, position};
-  const int gap = 2, band = 4;
-  const int lo = std::max(0, span.lo), hi = std::min(span.hi, view.along_size());
-  std::vector<double> d(std::max(0, hi - lo), 0.0);
-  std::vector<double> present;
-  for (int t = lo; t < hi; ++t) {
-    const SideView::Strips st = view.SumStrips(t, gap, band);
-    if (st.out_n == 0 || st.in_n == 0) continue;
-    d[t - lo] = st.in_sum / st.in_n - st.out_sum / st.out_n;
-    present.push_back(d[t - lo]);
-  }
+namespace {
+
+// The last stage of StepSpan: the longest run of steps `d` (indices from `lo`) at least half
+// the 90th percentile of `present` (reordered), gaps of up to 3 pixels bridged; `span` when
+// there is none.
+Span LongestStepRun(const std::vector<double>& d, std::vector<double>& present, int lo,
+                    Span span) {
   if (present.size() < 3) return span;
-  std::sort(present.begin(), present.end());
-  const double strong = present[(present.size() * 9) / 10];
+  // The 90th percentile of the steps: only compared below, so which of two equal values (+0
+  // and -0) the selection returns does not matter.
+  const size_t k = (present.size() * 9) / 10;
+  std::nth_element(present.begin(), present.begin() + k, present.end());
+  const double strong = present[k];
   if (strong <= 0.0) return span;
   // Longest run of a step at least half the strong one, bridging gaps of a few pixels (a
   // marker or an implant on the edge).
@@ -268,6 +468,37 @@ Span StepSpan(const Frame& frame, Side side, int position, Span span) {
   }
   if (best_hi <= best_lo) return span;
   return {lo + best_lo, lo + best_hi};
+}
+
+}  // namespace
+
+Span StepSpan(const Frame& frame, Side side, int position, Span span) {
+  const Strided px = StridedFor(frame, side);
+  const Direction out = Outward(side, position), in = Inward(side, position);
+  const int gap = 2, band = 4;
+  const auto [ob0, ob1] = out.Ks(gap, gap + band, px.across);
+  const auto [ib0, ib1] = in.Ks(gap, gap + band, px.across);
+  const int lo = std::max(0, span.lo), hi = std::min(span.hi, px.along);
+  std::vector<double> d(std::max(0, hi - lo), 0.0);
+  std::vector<double> present;
+  present.reserve(d.size());
+  for (int t = lo; t < hi; ++t) {
+    // The strip sums of SideView::SumStrips, each in the order of increasing depth.
+    double so = 0.0, si = 0.0;
+    int no = 0, ni = 0;
+    for (int k = ob0; k < ob1; ++k) {
+      const int a = out.Across(k);
+      if (px.Valid(t, a)) { so += px.Value(t, a); ++no; }
+    }
+    for (int k = ib0; k < ib1; ++k) {
+      const int a = in.Across(k);
+      if (px.Valid(t, a)) { si += px.Value(t, a); ++ni; }
+    }
+    if (no == 0 || ni == 0) continue;
+    d[t - lo] = si / ni - so / no;
+    present.push_back(d[t - lo]);
+  }
+  return LongestStepRun(d, present, lo, span);
 }
 
 SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span, double range,
@@ -314,21 +545,11 @@ SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span
     }
   }
   auto beyond = [&](double bright_level, double texture_level) {
-    BeyondCounts c;
     const auto [k0, k1] = out.Ks(gap, depth, px.across);
-    ForEachPixel(px, out, k0, k1, 1, 1, [&](int k, const float* v, const float* g) {
-      ++c.n;
-      c.bright += *v > bright_level ? 1 : 0;
-      c.textured += (k > gap && *g > texture_level) ? 1 : 0;
-    });
     // Every other pixel from `gap` on: the first k of that parity inside the frame.
     auto [h0, h1] = out.Ks(gap, px.across, px.across);
     if ((h0 - gap) % 2 != 0) ++h0;
-    ForEachPixel(px, out, h0, h1, 2, 2, [&](int, const float* v, const float*) {
-      ++c.nf;
-      c.bf += *v > bright_level ? 1 : 0;
-    });
-    return c;
+    return CountBeyond(px, out, gap, k0, k1, h0, h1, bright_level, texture_level);
   };
   return JudgeSide(st, beyond, position, range, depth_px, bounded);
 }
@@ -382,7 +603,8 @@ SideEvidence JudgeSide(StripStats& st, const std::function<BeyondCounts(double, 
     ev.why_not = "edge too short";
     return ev;
   }
-  const double far_level = st.far.empty() ? ev.outside : Median(st.far);
+  const double far_level =
+      st.far.empty() ? ev.outside : static_cast<double>(NthFloat(st.far, st.far.size() / 2));
   ev.flatness = (ev.outside - far_level) / ev.step;
   // The blade blocks its whole half-plane: the outside strip is tested over the full length,
   // and the whole half-plane to the image border (every other pixel), where brightness far

@@ -73,8 +73,23 @@ struct BeyondCounts {
 SideEvidence JudgeSide(StripStats& stats, const std::function<BeyondCounts(double, double)>& beyond,
                        int position, double range, double depth_px, bool bounded);
 
-// As SideCandidates and EvaluateSide (field_internal.h), pixel by pixel.
+// The value std::nth_element(v.begin(), v.begin() + k, v.end()) leaves at v[k] (k < size),
+// bit for bit, found by a radix selection on the floats' bits for larger inputs (v is then
+// left as it was); the median of JudgeSide. Tests compare it with std::nth_element.
+float NthFloat(std::vector<float>& v, size_t k);
+
+// Exact replacements of library calls in CandidateAngles' voting loop: std::fmod(x, 90.0)
+// for the arguments that loop produces, and std::lround. Tests compare them with the calls.
+double FmodNinety(double x);
+long RoundHalfAway(double x);
+
+// As CandidateAngles (field_internal.h), with a fresh accumulator, cos and sin per vote, fmod
+// and the scores' maxima taken one by one.
+std::vector<double> CandidateAnglesReference(const WorkingImage& working, const cv::Mat1f& gx,
+                                             const cv::Mat1f& gy, int count);
+// As SideCandidates, StepSpan and EvaluateSide (field_internal.h), pixel by pixel.
 std::vector<int> SideCandidatesReference(const Frame& frame, Side side, Span span, int count);
+Span StepSpanReference(const Frame& frame, Side side, int position, Span span);
 SideEvidence EvaluateSideReference(const Frame& frame, Side side, int position, Span span,
                                    double range, double depth_px, bool bounded = false);
 

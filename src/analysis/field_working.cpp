@@ -5,18 +5,45 @@
 #include <vector>
 
 #include "analysis/field_internal.h"
+#include "analysis/field_lines_reference.h"
 
 namespace beamtrim::field_internal {
+
+namespace {
+
+// One image row into the running block sums, minima and maxima of the whole blocks
+// [0, full): pixel column i of every block at a time, so that each block's sum, minimum and
+// maximum take its pixels in the same order as a loop over the block's own columns would
+// (every value bit for bit the same), while the loop over the blocks runs without a short
+// inner loop per block. F > 0: the factor as a compile-time constant.
+template <int F>
+void AddWholeBlocks(const float* row, int factor, int full, double* s, float* mn, float* mx) {
+  const int f = F > 0 ? F : factor;
+  std::fill(s, s + full, 0.0);
+  for (int i = 0; i < f; ++i) {
+    const float* r = row + i;
+    for (int bx = 0; bx < full; ++bx) {
+      const float v = r[static_cast<ptrdiff_t>(bx) * f];
+      s[bx] += v;
+      mn[bx] = std::min(mn[bx], v);
+      mx[bx] = std::max(mx[bx], v);
+    }
+  }
+}
+
+}  // namespace
 
 Blocks DownsampleBlocks(const Image& image, int factor) {
   const int w = image.width();
   const int h = image.height();
   const int bw = (w + factor - 1) / factor;
   const int bh = (h + factor - 1) / factor;
+  const int full = w / factor;  // blocks with all `factor` columns
   Blocks out{cv::Mat1f(bh, bw, 0.0f), cv::Mat1f(bh, bw, std::numeric_limits<float>::max()),
              cv::Mat1f(bh, bw, std::numeric_limits<float>::lowest())};
-  // Row sums per block column, accumulated in double so a 3000 px image sums exactly enough.
-  std::vector<double> sum(bw);
+  // Row sums per block column, accumulated in double so a 3000 px image sums exactly enough:
+  // for each row, the block's pixels in order from 0.0 (`row_sum`), then added to `sum`.
+  std::vector<double> sum(bw), row_sum(bw);
   for (int by = 0; by < bh; ++by) {
     std::fill(sum.begin(), sum.end(), 0.0);
     float* mn = out.min.ptr<float>(by);
@@ -24,18 +51,24 @@ Blocks DownsampleBlocks(const Image& image, int factor) {
     const int y1 = std::min(h, (by + 1) * factor);
     for (int y = by * factor; y < y1; ++y) {
       const float* row = image.row(y);
-      for (int bx = 0; bx < bw; ++bx) {
+      switch (factor) {
+        case 2: AddWholeBlocks<2>(row, factor, full, row_sum.data(), mn, mx); break;
+        case 4: AddWholeBlocks<4>(row, factor, full, row_sum.data(), mn, mx); break;
+        default: AddWholeBlocks<0>(row, factor, full, row_sum.data(), mn, mx); break;
+      }
+      for (int bx = 0; bx < full; ++bx) sum[bx] += row_sum[bx];
+      for (int bx = full; bx < bw; ++bx) {  // the partial block at the right border
         const int x0 = bx * factor;
         const int x1 = std::min(w, x0 + factor);
         float lo = mn[bx], hi = mx[bx];
-        double s = 0.0;
+        double rs = 0.0;
         for (int x = x0; x < x1; ++x) {
           const float v = row[x];
-          s += v;
+          rs += v;
           lo = std::min(lo, v);
           hi = std::max(hi, v);
         }
-        sum[bx] += s;
+        sum[bx] += rs;
         mn[bx] = lo;
         mx[bx] = hi;
       }
@@ -99,8 +132,7 @@ double Percentile(const cv::Mat1f& values, const cv::Mat1b& mask, double pct) {
   if (v.empty()) return 0.0;
   const size_t k = std::min(v.size() - 1,
                             static_cast<size_t>(std::clamp(pct, 0.0, 100.0) / 100.0 * v.size()));
-  std::nth_element(v.begin(), v.begin() + k, v.end());
-  return v[k];
+  return NthFloat(v, k);  // the value std::nth_element leaves at k, bit for bit
 }
 
 }  // namespace beamtrim::field_internal
