@@ -156,35 +156,76 @@ void RefineSides(const Refiner& r, double threshold, BoxExtents& e) {
 }
 
 // Per visible blade edge, the longest run (mm, sampled every mm) along which tissue lies just
-// past the penumbra and the working segmentation agrees a little further in. The anatomy runs
-// into the blade where the run is at least 3 mm.
+// past the penumbra. The anatomy runs into the blade where the run is at least 3 mm.
+// Image processing (unsharp masking, equalisation) lightens everything within a centimetre or
+// two of a blade edge, tissue included, by an amount that depends on the distance to the edge
+// far more than on the position along it. The open-field level a sample is compared with is
+// therefore taken along the same edge, at the same depth: the median of the samples within
+// kEdgeWindowMm that the segmentation calls direct exposure. Where too few lie within reach,
+// the local level of the segmentation is used (LevelAt). Without direct exposure the field
+// lies within the body and every sample is tissue.
 std::array<int, 4> BladeRuns(const FieldMeasurement& field, const Refiner& r,
                              const std::vector<Blade>& blades, double threshold,
                              const std::array<double, 2>& spacing) {
+  constexpr double kEdgeWindowMm = 40.0;
+  constexpr int kMinEdgeSamples = 5;
   std::array<int, 4> out{};
   const Working& w = r.w;
-  cv::Mat tissue = r.s.direct_found ? cv::Mat(w.field & ~r.s.direct & ~r.s.metal) : w.field;
   double step_px = 1.0 / std::min(spacing[0], spacing[1]);  // 1 mm
+  struct Sample {
+    bool valid = false;   // inside the field, away from the corners
+    bool direct = false;  // the segmentation's direct exposure a little further in
+    bool metal = false;   // marker or shield left out of the anatomy
+    float log = 0.0f;     // full-resolution log value just past the penumbra
+    float level = 0.0f;   // open-field level there from the segmentation
+  };
   for (const Blade& b : blades) {
     const Segment& seg = *field.side(b.side).line_px;
     double len = std::hypot(seg.b.x - seg.a.x, seg.b.y - seg.a.y);
     double deep = (w.erosion_px + 1.0) * std::max(w.fx, w.fy);
     int n = std::max(2, static_cast<int>(len / step_px));
-    int best = 0, run = 0;
+    std::vector<Sample> samples(n + 1);
     for (int i = 0; i <= n; ++i) {
       double t = static_cast<double>(i) / n;
       Point2d p{seg.a.x + t * (seg.b.x - seg.a.x), seg.a.y + t * (seg.b.y - seg.a.y)};
       Point2d shallow{p.x + b.depth * b.line.nx, p.y + b.depth * b.line.ny};
       Point2d inner{p.x + deep * b.line.nx, p.y + deep * b.line.ny};
-      bool hit = false;
       int wx = static_cast<int>(inner.x / w.fx), wy = static_cast<int>(inner.y / w.fy);
       int sx = static_cast<int>(shallow.x), sy = static_cast<int>(shallow.y);
-      if (wx >= 0 && wy >= 0 && wx < w.field.cols && wy < w.field.rows && w.field.at<uchar>(wy, wx) &&
-          sx >= 0 && sy >= 0 && sx < r.image.width() && sy < r.image.height()) {
-        bool corner = false;
-        for (const Blade& o : blades) corner = corner || o.line.SignedDistance(shallow) < o.depth - 1e-9;
-        hit = !corner && tissue.at<uchar>(wy, wx) &&
-              (!r.s.direct_found || r.Residual(sx, sy) > threshold);
+      if (wx < 0 || wy < 0 || wx >= w.field.cols || wy >= w.field.rows || !w.field.at<uchar>(wy, wx) ||
+          sx < 0 || sy < 0 || sx >= r.image.width() || sy >= r.image.height()) {
+        continue;
+      }
+      bool corner = false;
+      for (const Blade& o : blades) corner = corner || o.line.SignedDistance(shallow) < o.depth - 1e-9;
+      if (corner) continue;
+      Sample& m = samples[i];
+      m.valid = true;
+      if (!r.s.direct_found) continue;
+      m.direct = r.s.direct.at<uchar>(wy, wx) != 0;
+      m.metal = r.s.metal.at<uchar>(wy, wx) != 0;
+      m.log = LocalLog(r.image, sx, sy, r.linear);
+      double lx = (sx + 0.5) / w.fx - 0.5, ly = (sy + 0.5) / w.fy - 0.5;
+      m.level = static_cast<float>(anatomy_internal::LevelAt(r.s, lx, ly));
+    }
+    const int reach = static_cast<int>(std::lround(kEdgeWindowMm));
+    int best = 0, run = 0;
+    std::vector<float> near;
+    for (int i = 0; i <= n; ++i) {
+      const Sample& m = samples[i];
+      bool hit = m.valid;
+      if (hit && r.s.direct_found) {
+        near.clear();
+        for (int j = std::max(0, i - reach); j <= std::min(n, i + reach); ++j) {
+          if (samples[j].valid && samples[j].direct && !samples[j].metal) near.push_back(samples[j].log);
+        }
+        double level = m.level;
+        if (static_cast<int>(near.size()) >= kMinEdgeSamples) {
+          auto mid = near.begin() + near.size() / 2;
+          std::nth_element(near.begin(), mid, near.end());
+          level = *mid;
+        }
+        hit = !m.metal && level - m.log > threshold;
       }
       run = hit ? run + 1 : 0;
       best = std::max(best, run);
@@ -274,6 +315,7 @@ AnatomyMeasurement FindAnatomy(const Image& image, const FieldMeasurement& field
   double threshold = s.threshold;
   if (s.direct_found) threshold = std::max(s.threshold, 5.0 * FullResolutionNoise(r));
   std::array<int, 4> runs = BladeRuns(field, r, r.blades, threshold, spacing);
+
   std::vector<Side> clipped;
   for (Side side : kAllSides) {
     if (runs[static_cast<int>(side)] >= kMinRunMm) clipped.push_back(side);
