@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <map>
 #include <utility>
 #include <vector>
 
@@ -85,18 +86,57 @@ void DropInconsistent(Rectangle& r, double lo, double range) {
   }
 }
 
+// EvaluateSide, SideCandidates and StepSpan are pure functions of the frame and their
+// arguments. The coordinate ascent asks many of the same questions again (later passes whose
+// spans did not change, MeasureWithinNeighbours, the final check), so the answers are kept for
+// the one frame a BestRectangle call works on; results are the same as calling the kernels.
+class FrameQueries {
+ public:
+  FrameQueries(const Frame& frame, double range, double depth_px)
+      : frame_(frame), range_(range), depth_px_(depth_px) {}
+
+  SideEvidence Evaluate(Side s, int position, Span span, bool bounded) {
+    const std::array<int, 5> key{static_cast<int>(s), position, span.lo, span.hi, bounded ? 1 : 0};
+    auto it = evidence_.find(key);
+    if (it == evidence_.end()) {
+      it = evidence_.emplace(key, EvaluateSide(frame_, s, position, span, range_, depth_px_, bounded)).first;
+    }
+    return it->second;
+  }
+  const std::vector<int>& Candidates(Side s, Span span, int count) {
+    const std::array<int, 4> key{static_cast<int>(s), span.lo, span.hi, count};
+    auto it = candidates_.find(key);
+    if (it == candidates_.end()) it = candidates_.emplace(key, SideCandidates(frame_, s, span, count)).first;
+    return it->second;
+  }
+  Span StepSpanAt(Side s, int position, Span span) {
+    const std::array<int, 4> key{static_cast<int>(s), position, span.lo, span.hi};
+    auto it = step_spans_.find(key);
+    if (it == step_spans_.end()) it = step_spans_.emplace(key, StepSpan(frame_, s, position, span)).first;
+    return it->second;
+  }
+  const Frame& frame() const { return frame_; }
+
+ private:
+  const Frame& frame_;
+  double range_;
+  double depth_px_;
+  std::map<std::array<int, 5>, SideEvidence> evidence_;
+  std::map<std::array<int, 4>, std::vector<int>> candidates_;
+  std::map<std::array<int, 4>, Span> step_spans_;
+};
+
 // The sides chosen early in a pass were measured before their perpendicular neighbours were
 // known, so their levels include the corners, where two blades overlap; the consistency test
 // must compare every side over the span its neighbours leave. A side that is no blade over
 // that span (too short, for a tiny field) keeps its first evidence with the levels measured
 // there: the bounded tests decide on it later.
-void MeasureWithinNeighbours(const Frame& frame, double range, double depth_px, Rectangle& r) {
+void MeasureWithinNeighbours(FrameQueries& q, Rectangle& r) {
   std::array<std::optional<SideEvidence>, 4> measured = r.sides;
   for (Side s : kAllSides) {
     auto& slot = measured[static_cast<int>(s)];
     if (!slot) continue;
-    SideEvidence ev = EvaluateSide(frame, s, static_cast<int>(slot->position), SpanFor(r, s, frame),
-                                   range, depth_px, false);
+    SideEvidence ev = q.Evaluate(s, static_cast<int>(slot->position), SpanFor(r, s, q.frame()), false);
     if (ev.blade) {
       slot = ev;
     } else if (ev.step > 0.0) {
@@ -112,16 +152,17 @@ void MeasureWithinNeighbours(const Frame& frame, double range, double depth_px, 
 Rectangle BestRectangle(const Frame& frame, double lo, double range, double depth_px) {
   Rectangle r;
   r.angle_deg = frame.angle_deg;
+  FrameQueries q(frame, range, depth_px);
   for (int pass = 0; pass < 4; ++pass) {
     bool changed = false;
     for (Side s : kAllSides) {
       const Span span = SpanFor(r, s, frame);
       const bool bounded = pass > 0;
       std::optional<SideEvidence> best;
-      for (int p : SideCandidates(frame, s, span, 6)) {
+      for (int p : q.Candidates(s, span, 6)) {
         if (!Compatible(r, s, p)) continue;
-        const Span tested = bounded ? span : StepSpan(frame, s, p, span);
-        SideEvidence ev = EvaluateSide(frame, s, p, tested, range, depth_px, bounded);
+        const Span tested = bounded ? span : q.StepSpanAt(s, p, span);
+        SideEvidence ev = q.Evaluate(s, p, tested, bounded);
         if (ev.blade && (!best || ev.score > best->score)) best = ev;
       }
       auto& slot = r.sides[static_cast<int>(s)];
@@ -130,7 +171,7 @@ Rectangle BestRectangle(const Frame& frame, double lo, double range, double dept
       changed |= differs;
       slot = best;
     }
-    MeasureWithinNeighbours(frame, range, depth_px, r);
+    MeasureWithinNeighbours(q, r);
     DropInconsistent(r, lo, range);
     if (!changed && pass > 0) break;
   }
