@@ -8,6 +8,7 @@
 #include <functional>
 #include <limits>
 #include <numeric>
+#include <utility>
 #include <vector>
 
 #include <opencv2/imgproc.hpp>
@@ -470,6 +471,26 @@ Span LongestStepRun(const std::vector<double>& d, std::vector<double>& present, 
   return {lo + best_lo, lo + best_hi};
 }
 
+// Sums and counts of the valid pixels of the outside strip (depths [o.first, o.second)) and
+// the inside strip at along-edge index t, each summed in the order of increasing depth.
+struct StripSums {
+  double out = 0.0, in = 0.0;
+  int n_out = 0, n_in = 0;
+};
+StripSums SumStrips(const Strided& px, Direction out, std::pair<int, int> o, Direction in,
+                    std::pair<int, int> i, int t) {
+  StripSums s;
+  for (int k = o.first; k < o.second; ++k) {
+    const int a = out.Across(k);
+    if (px.Valid(t, a)) { s.out += px.Value(t, a); ++s.n_out; }
+  }
+  for (int k = i.first; k < i.second; ++k) {
+    const int a = in.Across(k);
+    if (px.Valid(t, a)) { s.in += px.Value(t, a); ++s.n_in; }
+  }
+  return s;
+}
+
 }  // namespace
 
 Span StepSpan(const Frame& frame, Side side, int position, Span span) {
@@ -484,18 +505,9 @@ Span StepSpan(const Frame& frame, Side side, int position, Span span) {
   present.reserve(d.size());
   for (int t = lo; t < hi; ++t) {
     // The strip sums of SideView::SumStrips, each in the order of increasing depth.
-    double so = 0.0, si = 0.0;
-    int no = 0, ni = 0;
-    for (int k = ob0; k < ob1; ++k) {
-      const int a = out.Across(k);
-      if (px.Valid(t, a)) { so += px.Value(t, a); ++no; }
-    }
-    for (int k = ib0; k < ib1; ++k) {
-      const int a = in.Across(k);
-      if (px.Valid(t, a)) { si += px.Value(t, a); ++ni; }
-    }
-    if (no == 0 || ni == 0) continue;
-    d[t - lo] = si / ni - so / no;
+    const StripSums ss = SumStrips(px, out, {ob0, ob1}, in, {ib0, ib1}, t);
+    if (ss.n_out == 0 || ss.n_in == 0) continue;
+    d[t - lo] = ss.in / ss.n_in - ss.out / ss.n_out;
     present.push_back(d[t - lo]);
   }
   return LongestStepRun(d, present, lo, span);
@@ -518,16 +530,11 @@ SideEvidence EvaluateSide(const Frame& frame, Side side, int position, Span span
   st.diffs.reserve(std::max(0, t1 - t0));
   st.far.reserve(static_cast<size_t>(std::max(0, t1 - t0)) * std::max(0, of1 - of0));
   for (int t = t0; t < t1; ++t) {
-    double so = 0.0, si = 0.0;
-    int no = 0, ni = 0;
-    for (int k = ob0; k < ob1; ++k) {
-      const int a = out.Across(k);
-      if (px.Valid(t, a)) { so += px.Value(t, a); ++no; }
-    }
-    for (int k = ib0; k < ib1; ++k) {
-      const int a = in.Across(k);
-      if (px.Valid(t, a)) { si += px.Value(t, a); ++ni; }
-    }
+    const StripSums ss = SumStrips(px, out, {ob0, ob1}, in, {ib0, ib1}, t);
+    double so = ss.out;
+    const double si = ss.in;
+    int no = ss.n_out;
+    const int ni = ss.n_in;
     // A blade shadow within a few millimetres of the image border: the strip just outside
     // the edge is all there is of the blocked plateau.
     for (int k = gap - 1; no == 0 && k >= 1; --k) {
