@@ -179,8 +179,7 @@ Rectangle BestRectangle(const Frame& frame, double lo, double range, double dept
   for (Side s : kAllSides) {
     auto& slot = r.sides[static_cast<int>(s)];
     if (!slot) continue;
-    SideEvidence ev = EvaluateSide(frame, s, static_cast<int>(slot->position), SpanFor(r, s, frame),
-                                   range, depth_px, true);
+    SideEvidence ev = q.Evaluate(s, static_cast<int>(slot->position), SpanFor(r, s, frame), true);
     if (ev.blade) slot = ev; else slot.reset();
   }
   DropInconsistent(r, lo, range);
