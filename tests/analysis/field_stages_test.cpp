@@ -36,6 +36,22 @@ std::vector<double> RampProfile(int n, double step, double edge, double penumbra
   return p;
 }
 
+// RefineSide (24 px search window, 50 % transition) on the left blade edge of `s`, started
+// `offset_px` outside the true line, between rows y0 and y1; raw unless `s.processed`.
+struct LeftEdgeRefined {
+  Line truth;
+  RefinedSide side;
+};
+LeftEdgeRefined RefineLeftEdge(const testimg::Spec& s, double offset_px, double y0, double y1,
+                               int factor) {
+  const Image img = testimg::Render(s);
+  const Line truth = testimg::SideLines(s)[0];  // normal pointing out of the field
+  const Line start{truth.nx, truth.ny, truth.c + offset_px};
+  const double x = s.cx - s.half[0];
+  return {truth, RefineSide(img, start, {x, y0}, {x, y1}, 24.0, !s.processed,
+                            EdgeDefinition::kHalfTransition, nullptr, factor)};
+}
+
 }  // namespace
 
 TEST_CASE("BlockMeanMatchesSlowReferenceIncludingPartialBlocks") {
@@ -172,16 +188,11 @@ TEST_CASE("RefinementWidensItsWindowForAPenumbraWiderThanTheSearch") {
   s.cy = 300;
   s.half = {200, 190, 180, 170};
   s.penumbra = 60.0;
-  const Image img = testimg::Render(s);
-  const Line truth = testimg::SideLines(s)[0];  // left side, normal pointing out of the field
-  const Line start{truth.nx, truth.ny, truth.c + 9.0};  // coarse line 9 px off
-  const Point2d a{350 - 200, 200}, b{350 - 200, 400};
-  const RefinedSide r = RefineSide(img, start, a, b, 24.0, true, EdgeDefinition::kHalfTransition,
-                                   nullptr, 8);
-  REQUIRE(r.ok);
-  CHECK(std::fabs(r.line.c - truth.c) < 0.5);
-  REQUIRE(r.penumbra_px.has_value());
-  CHECK(*r.penumbra_px == doctest::Approx(0.8 * 60.0).epsilon(0.1));  // 10-90 % of a ramp
+  const LeftEdgeRefined r = RefineLeftEdge(s, 9.0, 200, 400, 8);  // coarse line 9 px off
+  REQUIRE(r.side.ok);
+  CHECK(std::fabs(r.side.line.c - r.truth.c) < 0.5);
+  REQUIRE(r.side.penumbra_px.has_value());
+  CHECK(*r.side.penumbra_px == doctest::Approx(0.8 * 60.0).epsilon(0.1));  // 10-90 % of a ramp
 }
 
 TEST_CASE("ProcessedEdgeIsRefinedToTheBladeProjectionNotTheSpanCentre") {
@@ -196,14 +207,9 @@ TEST_CASE("ProcessedEdgeIsRefinedToTheBladeProjectionNotTheSpanCentre") {
   s.half = {150, 150, 140, 140};
   s.penumbra = 16.0;
   s.processed = true;
-  const Image img = testimg::Render(s);
-  const Line truth = testimg::SideLines(s)[0];
-  const Line start{truth.nx, truth.ny, truth.c + 2.0};
-  const Point2d a{100, 150}, b{100, 310};
-  const RefinedSide r = RefineSide(img, start, a, b, 24.0, false, EdgeDefinition::kHalfTransition,
-                                   nullptr, 4);
-  REQUIRE(r.ok);
-  CHECK(std::fabs(r.line.c - truth.c) < 0.4);
+  const LeftEdgeRefined r = RefineLeftEdge(s, 2.0, 150, 310, 4);
+  REQUIRE(r.side.ok);
+  CHECK(std::fabs(r.side.line.c - r.truth.c) < 0.4);
 }
 
 TEST_CASE("QuarterMaximumLevelLiesOutsideTheHalfTransition") {
