@@ -4,6 +4,7 @@
 #include <algorithm>
 #include <cmath>
 #include <string>
+#include <tuple>
 
 #include <opencv2/imgproc.hpp>
 
@@ -54,8 +55,9 @@ Prepared Prepare(const Image& image, const FieldContext& ctx, const FieldOptions
     const double top = Percentile(wk.value, wk.valid, 99.9);
     if (top > 0.0) {
       wk.log_floor = 1e-4 * top;
+      wk.log_offset = kLogOffset * top;
       cv::max(wk.value, wk.log_floor, wk.value);
-      wk.value += kLogOffset * top;
+      wk.value += wk.log_offset;
       cv::log(wk.value, wk.value);
       wk.linear = true;
     } else {
@@ -126,7 +128,7 @@ double SideConfidence(const SideEvidence& e, double range) {
   const double rel = e.step / std::max(range, 1e-9);
   const double margin = std::min({(e.support - 0.6) / 0.4, (0.1 - e.bright) / 0.1,
                                   (0.12 - e.texture) / 0.12, (kMaxFallOff - e.flatness) / kMaxFallOff,
-                                  (rel - 0.08) / 0.12, 1.0});
+                                  (rel - kMinRelativeStep) / 0.12, 1.0});
   return std::clamp(0.5 + 0.5 * margin, 0.0, 1.0);
 }
 
@@ -201,7 +203,92 @@ void DropImplausibleCorner(const Polygon& base, std::array<std::optional<Line>, 
   }
 }
 
+// Rotation of the field from the fitted edges (the mean of their angles, each taken to the
+// quarter turn nearest the search angle), in [-45, 45); 0 with none.
+double FieldAngle(const std::array<std::optional<Line>, 4>& lines, double search_deg) {
+  double sum = 0.0;
+  int n = 0;
+  for (Side s : kAllSides) {
+    const auto& l = lines[static_cast<int>(s)];
+    if (!l) continue;
+    double a = SideAngle(s, *l);
+    a -= 90.0 * std::round((a - search_deg) / 90.0);
+    sum += a;
+    ++n;
+  }
+  double angle = n ? sum / n : 0.0;
+  if (angle >= 45.0) angle -= 90.0;
+  if (angle < -45.0) angle += 90.0;
+  return angle;
+}
+
+// Along-edge extent of a side between the perpendicular lines found, in full pixels (x for top
+// and bottom, y for left and right), a few working pixels clear of their penumbrae.
+std::pair<double, double> AlongExtent(const Polygon& base, const std::array<std::optional<Line>, 4>& lines,
+                                      Side s, int factor) {
+  Polygon region = base;
+  for (Side o : kAllSides) {
+    if (o != s && lines[static_cast<int>(o)]) region = ClipHalfPlane(region, *lines[static_cast<int>(o)]);
+  }
+  const bool vertical = s == Side::kLeft || s == Side::kRight;
+  double lo = 1e300, hi = -1e300;
+  for (const Point2d& p : region) {
+    lo = std::min(lo, vertical ? p.y : p.x);
+    hi = std::max(hi, vertical ? p.y : p.x);
+  }
+  const Side before = vertical ? Side::kTop : Side::kLeft;
+  const Side after = vertical ? Side::kBottom : Side::kRight;
+  if (lines[static_cast<int>(before)]) lo += 2.0 * factor;
+  if (lines[static_cast<int>(after)]) hi -= 2.0 * factor;
+  return {lo, hi};
+}
+
+// Sides the working-resolution search left without a blade may still have one a few
+// millimetres inside the border (FindBladeNearBorder). Only for fields square to the image
+// within a few degrees: a turned blade runs away from the border and was searched already.
+// `angle_deg`: the field angle fitted to the blades found (0 with none). Returns the sides
+// added to `coarse` (their evidence set in `best`).
+std::vector<Side> AddBladesNearBorder(const Image& image, const Prepared& prep,
+                                      const FieldContext& ctx, const Polygon& base,
+                                      double angle_deg, Rectangle* best,
+                                      std::array<std::optional<Line>, 4>* coarse) {
+  const WorkingImage& wk = prep.working;
+  std::optional<double> blocked;
+  for (Side s : kAllSides) {
+    const int i = static_cast<int>(s);
+    if (!(*coarse)[i]) continue;
+    const double o = best->sides[i]->outside;
+    blocked = blocked ? std::min(*blocked, o) : o;
+  }
+  std::vector<Side> added;
+  if (std::fabs(angle_deg) > kMaxBorderFieldAngleDeg) return added;
+  const std::array<std::optional<Line>, 4> found = *coarse;
+  for (Side s : kAllSides) {
+    const int i = static_cast<int>(s);
+    if (found[i]) continue;
+    BorderSearch in;
+    in.side = s;
+    in.angle_deg = angle_deg;
+    std::tie(in.along_lo, in.along_hi) = AlongExtent(base, found, s, wk.factor);
+    in.pitch_mm = ctx.spacing_mm ? std::min((*ctx.spacing_mm)[0], (*ctx.spacing_mm)[1]) : 0.0;
+    in.lo = wk.lo;
+    in.range = wk.hi - wk.lo;
+    in.blocked = blocked;
+    if (auto blade = FindBladeNearBorder(image, wk, in)) {
+      (*coarse)[i] = blade->line;
+      best->sides[i] = blade->evidence;
+      added.push_back(s);
+    }
+  }
+  return added;
+}
+
 }  // namespace
+
+double field_internal::WorkingValue(const WorkingImage& wk, double mean) {
+  if (!wk.linear) return mean;
+  return std::log(std::max(mean, wk.log_floor) + wk.log_offset);
+}
 
 FieldContext FieldContextFromHeader(const RadiographHeader& header, bool linear) {
   FieldContext ctx;
@@ -265,16 +352,15 @@ FieldMeasurement DetectField(const Image& image, const FieldContext& ctx,
   }
   if (!blank.blanked) DropImplausibleCorner(base, &coarse);
   // Sub-pixel refinement of each blade edge between its neighbours.
-  for (Side s : kAllSides) {
+  auto refine = [&](Side s) {
     const int i = static_cast<int>(s);
-    if (!coarse[i]) continue;
     Polygon others = base;
     for (Side o : kAllSides) {
       if (o != s && coarse[static_cast<int>(o)]) others = ClipHalfPlane(others, *coarse[static_cast<int>(o)]);
     }
     auto seg = LineInRegion(others, *coarse[i]);
     refined[i] = coarse[i];
-    if (!seg) continue;
+    if (!seg) return;
     const double len = std::hypot(seg->b.x - seg->a.x, seg->b.y - seg->a.y);
     const double margin = std::min(0.25 * len, 4.0 * wk.factor);
     const double tx = (seg->b.x - seg->a.x) / len, ty = (seg->b.y - seg->a.y) / len;
@@ -306,6 +392,13 @@ FieldMeasurement DetectField(const Image& image, const FieldContext& ctx,
       m.notes.push_back(std::string(SideName(s)) + ": edge kept at working resolution");
     }
     sm.visible = true;
+  };
+  for (Side s : kAllSides) {
+    if (coarse[static_cast<int>(s)]) refine(s);
+  }
+  for (Side s : AddBladesNearBorder(image, prep, ctx, base, FieldAngle(refined, best.angle_deg),
+                                    &best, &coarse)) {
+    refine(s);
   }
 
   Polygon poly = base;
@@ -321,21 +414,8 @@ FieldMeasurement DetectField(const Image& image, const FieldContext& ctx,
   m.area_px = Area(poly);
   if (ctx.spacing_mm) m.area_mm2 = m.area_px * (*ctx.spacing_mm)[0] * (*ctx.spacing_mm)[1];
 
-  // Rotation from the fitted edges, else the search angle.
-  double sum = 0.0;
-  int n = 0;
-  for (Side s : kAllSides) {
-    const auto& l = refined[static_cast<int>(s)];
-    if (!l) continue;
-    double a = SideAngle(s, *l);
-    a -= 90.0 * std::round((a - best.angle_deg) / 90.0);
-    sum += a;
-    ++n;
-  }
-  m.rotation_deg = n ? sum / n : 0.0;
-  if (m.rotation_deg >= 45.0) m.rotation_deg -= 90.0;
-  if (m.rotation_deg < -45.0) m.rotation_deg += 90.0;
-  m.open = n == 0;
+  m.rotation_deg = FieldAngle(refined, best.angle_deg);
+  m.open = std::none_of(refined.begin(), refined.end(), [](const auto& l) { return l.has_value(); });
 
   // Sides without a blade: beyond the receptor, blanked or cropped.
   const std::array<bool, 2> cropped_axes = CroppedAxes(image, ctx);

@@ -14,10 +14,6 @@ namespace beamtrim::field_internal {
 namespace {
 
 constexpr double kDeg = M_PI / 180.0;
-// Share of the robust value range above which a side's blocked plateau, with a step below
-// kSmallStep of the range, is taken for an anatomy outline (DropInconsistent).
-constexpr double kBrightPlateau = 0.6;
-constexpr double kSmallStep = 0.3;
 
 bool Vertical(Side s) { return s == Side::kLeft || s == Side::kRight; }
 

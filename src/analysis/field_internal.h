@@ -39,8 +39,13 @@ struct WorkingImage {
   double lo = 0.0;         // robust range of valid values (0.1 and 99.9 percentiles)
   double hi = 1.0;
   double log_floor = 0.0;  // smallest linear value before the logarithm (linear input)
+  double log_offset = 0.0; // added to linear values before the logarithm (linear input)
   bool linear = false;
 };
+
+// A mean of full-resolution pixel values in the working image's value units (the logarithm
+// of linear input, as Prepare takes it).
+double WorkingValue(const WorkingImage& working, double mean);
 
 // Percentile (0..100) of the values where mask != 0 (all values when the mask is empty).
 double Percentile(const cv::Mat1f& values, const cv::Mat1b& mask, double pct);
@@ -96,6 +101,13 @@ struct SideEvidence {
   std::string why_not;     // first failed test
 };
 
+// Smallest step, as a share of the robust value range, that a blade edge may have.
+inline constexpr double kMinRelativeStep = 0.08;
+// A blocked plateau above this share of the robust range, reached by a step below kSmallStep
+// of it, is an anatomy outline when no other side gives the blocked level (DropInconsistent).
+inline constexpr double kBrightPlateau = 0.6;
+inline constexpr double kSmallStep = 0.3;
+
 // Largest fall of the blocked level from the edge to 40 mm beyond it, relative to the step.
 // Off-focus radiation through the aperture leaves a halo that slopes away from the edge for
 // several centimetres; a soft-tissue outline keeps falling further still.
@@ -147,6 +159,40 @@ bool SplitAtBlockedBand(const Frame& frame, double range, double depth_px, doubl
 // Line (full-resolution pixel coordinates) of a side of a frame at a boundary position, with
 // the normal pointing out of the field.
 Line FrameSideLine(const Frame& frame, Side side, double position, int factor);
+
+// ---- Blades close to the image border (field_border.cpp) --------------------------------
+
+// How far from the image border, in mm, FindBladeNearBorder looks for a blade shadow.
+inline constexpr double kBorderSearchMm = 20.0;
+// Share of the usable segments whose rise lies on the fitted line.
+inline constexpr double kMinBorderSupport = 0.6;
+// Largest field rotation, in degrees, for which the border is searched: a blade turned further
+// runs away from the border, into the reach of the working-resolution search.
+inline constexpr double kMaxBorderFieldAngleDeg = 3.0;
+// Largest angle, in degrees, between the found edge and the field's axes.
+inline constexpr double kBorderAngleTolDeg = 1.0;
+
+struct BorderSearch {
+  Side side = Side::kTop;
+  double angle_deg = 0.0;   // field angle (frame angle of the sides found, else 0)
+  double along_lo = 0.0;    // along-edge extent to test, full pixels (x for top and bottom,
+  double along_hi = 0.0;    // y for left and right): between the perpendicular blades
+  double pitch_mm = 0.0;    // detector pixel pitch, 0 when unknown
+  double lo = 0.0;          // WorkingImage::lo and hi - lo
+  double range = 1.0;
+  std::optional<double> blocked;  // darkest blocked plateau of the sides found, if any
+};
+struct BorderBlade {
+  Line line;               // full-resolution pixels, normal out of the field
+  SideEvidence evidence;   // levels, step and support, for the confidence and later checks
+};
+// A blade shadow within kBorderSearchMm of the image border on one side, too close to it for
+// the working-resolution search: a dark plateau from the border to one clear rise, in short
+// segments along the side, the rises on one straight line parallel to the field axes, the
+// plateau as dark as a blocked one. Pixels the working image marks invalid (blanked) are not
+// used.
+std::optional<BorderBlade> FindBladeNearBorder(const Image& image, const WorkingImage& working,
+                                               const BorderSearch& search);
 
 // ---- Sub-pixel refinement (field_refine.cpp) --------------------------------------------
 

@@ -626,7 +626,7 @@ SideEvidence JudgeSide(StripStats& st, const std::function<BeyondCounts(double, 
   const double sup2 = ev.support * ev.support;
   ev.score = rel * sup2 * sup2 * ev.coverage * ev.coverage * (1.0 - ev.bright) * (1.0 - ev.texture) *
              (1.0 - std::clamp(ev.flatness, 0.0, 1.0));
-  if (rel < 0.08) ev.why_not = "contrast too low";
+  if (rel < kMinRelativeStep) ev.why_not = "contrast too low";
   else if (ev.support < 0.6) ev.why_not = "step along less than 60 % of the edge";
   else if (bounded && ev.coverage < 0.5) ev.why_not = "step along less than half of the field side";
   else if (ev.bright > 0.1) ev.why_not = "bright structures beyond the edge";

@@ -206,6 +206,42 @@ TEST_CASE("BladeCloseToTheBorderIsStillFound") {
   }
 }
 
+TEST_CASE("BladesAFewMillimetresInsideTheBorderAreFound") {
+  // Top and bottom blades 4 mm inside the image (0.5 mm pixels) with a 4 mm penumbra: at the
+  // 2 mm working resolution their blocked plateaus are one or two pixels wide, too narrow for
+  // the rectangle search; the border search finds them at full resolution. The field is
+  // turned 0.3 degrees, so the edges also cross pixel rows. Synthetic ground truth.
+  for (bool processed : {false, true}) {
+    Spec s;
+    s.half = {120, 110, 172, 172};  // top edge about row 8, bottom about row 352 of 360
+    s.angle_deg = 0.3;
+    s.blobs = {{200, 180, 60, 120, 0.3}};
+    s.penumbra = 8.0;
+    s.plateau_slope = 0.1;  // scatter and off-focus glow beyond the edges
+    s.heel = 0.1;
+    s.noise = 0.01;
+    s.processed = processed;
+    FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(!processed));
+    CAPTURE(processed);
+    CHECK(VisibleCount(m) == 4);
+    CHECK(Hausdorff(m, s) < 1.0);
+  }
+}
+
+TEST_CASE("TissueStripAlongTheBorderIsNotABlade") {
+  // The counterpart: a straight strip of soft tissue (transmission 0.5) along the left border,
+  // 5 mm deep, in a field whose top and bottom blades give the blocked level (transmission
+  // 0.08). Its plateau lies far above that level, so it is no blade shadow (a blade blocks most
+  // of the beam: common practice, no single source).
+  Spec s;
+  s.half = {1000, 1000, 150, 150};
+  s.bands = {{0, 10, 0.5}};
+  s.noise = 0.01;
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  CHECK(VisibleCount(m) == 2);
+  CHECK_FALSE(m.sides[0].visible);
+}
+
 TEST_CASE("DirectBeamStripBesideThePatientIsNotAField") {
   // Open field; the body fills all but a 30 px strip of direct exposure at the left. The body
   // outline is a strong straight step with a dark, fairly smooth region beyond it, but a
