@@ -52,36 +52,6 @@ bool Compatible(const Rectangle& r, Side s, double position) {
   return low ? position + min_size <= other->position : other->position + min_size <= position;
 }
 
-// All blades block the same beam: every blocked plateau lies well below the open level of the
-// strongest side. A side whose "outside" is as bright as that open level is not a blade
-// (typically an edge-enhancement halo or an anatomy edge inside the field). A side whose
-// "inside" is hardly above the blocked level is no field edge either (an edge between two
-// blocked levels); the blocked level for that test is the darkest plateau of all sides, as
-// one plateau can be lifted by scatter or a display curve while dense anatomy lowers the
-// open level along another side. The outside test also measures from the darkest plateau: the
-// strongest side may be a false one whose "blocked" level is anatomy.
-// Without any reference side, a blade still removes most of the exposure: a "blocked" plateau
-// above 60 % of the image's robust range reached by a step under 30 % of it is an anatomy
-// outline with more anatomy beyond (an arm beside the chest, the body's edge), not a blade.
-void DropInconsistent(Rectangle& r, double lo, double range) {
-  const SideEvidence* ref = nullptr;
-  double darkest = std::numeric_limits<double>::infinity();
-  for (const auto& s : r.sides) {
-    if (s && (!ref || s->score > ref->score)) ref = &*s;
-    if (s) darkest = std::min(darkest, s->outside);
-  }
-  if (!ref) return;
-  const double limit = darkest + 0.5 * (ref->inside - darkest);
-  const double floor = darkest + 0.25 * (ref->inside - darkest);
-  const double bright_plateau = lo + kBrightPlateau * range;
-  const double small_step = kSmallStep * range;
-  for (auto& s : r.sides) {
-    if (!s) continue;
-    const bool anatomy_outline = s->outside > bright_plateau && s->step < small_step;
-    if (s->outside > limit || s->inside < floor || anatomy_outline) s.reset();
-  }
-}
-
 // EvaluateSide, SideCandidates and StepSpan are pure functions of the frame and their
 // arguments. The coordinate ascent asks many of the same questions again (later passes whose
 // spans did not change, MeasureWithinNeighbours, the final check), so the answers are kept for
@@ -144,6 +114,29 @@ void MeasureWithinNeighbours(FrameQueries& q, Rectangle& r) {
 }
 
 }  // namespace
+
+void DropInconsistent(Rectangle& r, double lo, double range) {
+  const SideEvidence* ref = nullptr;
+  double darkest = std::numeric_limits<double>::infinity();
+  for (const auto& s : r.sides) {
+    if (s && (!ref || s->score > ref->score)) ref = &*s;
+    if (s) darkest = std::min(darkest, s->outside);
+  }
+  if (!ref) return;
+  const double floor = darkest + 0.25 * (ref->inside - darkest);
+  const double bright_plateau = lo + kBrightPlateau * range;
+  const double small_step = kSmallStep * range;
+  for (auto& s : r.sides) {
+    if (!s) continue;
+    // Half-way to the higher of the two open levels: the open level differs from side to side
+    // (heel effect, dense anatomy along one edge), and a plateau beside the bright part of the
+    // field is lifted by its scatter and glow with it.
+    const double open = std::max(ref->inside, s->inside);
+    const double limit = darkest + 0.5 * (open - darkest);
+    const bool anatomy_outline = s->outside > bright_plateau && s->step < small_step;
+    if (s->outside > limit || s->inside < floor || anatomy_outline) s.reset();
+  }
+}
 
 Rectangle BestRectangle(const Frame& frame, double lo, double range, double depth_px) {
   Rectangle r;

@@ -144,6 +144,18 @@ struct Rectangle {
   // larger one (see SplitAtBlockedBand).
   bool split = false;
 };
+// All blades block the same beam: every blocked plateau lies well below the open level. A side
+// whose "outside" is above half-way from the darkest plateau of all sides to the open level
+// (the strongest side's, or its own where that is higher) is not a blade (typically an
+// edge-enhancement halo or an anatomy edge inside the field). A side whose "inside" is hardly
+// above the darkest plateau is no field edge either (an edge between two blocked levels).
+// The darkest plateau, not the strongest side's, is the reference: one plateau can be lifted
+// by scatter or a display curve, and the strongest side may be a false one whose "blocked"
+// level is anatomy. Without any reference side, a blade still removes most of the exposure: a
+// "blocked" plateau above kBrightPlateau of the image's robust range (`lo`, `range`) reached
+// by a step under kSmallStep of it is an anatomy outline with more anatomy beyond (an arm
+// beside the chest, the body's edge), not a blade. Removes such sides from `r`.
+void DropInconsistent(Rectangle& r, double lo, double range);
 // Best rectangle at one angle by coordinate ascent over the four sides. `lo` and `range`: the
 // robust low end and extent of the working values (WorkingImage::lo, hi - lo).
 Rectangle BestRectangle(const Frame& frame, double lo, double range, double depth_px);

@@ -376,3 +376,31 @@ TEST_CASE("CoverageCountsDenseAnatomyInsideTheEdge") {
   CHECK_FALSE(inside.blade);
   CHECK(inside.coverage < 0.1);
 }
+
+TEST_CASE("PlateauLiftedBesideTheBrightPartOfTheFieldIsStillABlade") {
+  // Levels in the working image's log units, as measured on a forearm image whose left blade
+  // lies beside the bright open beam while the top blade's open level is lowered by the
+  // elbow (synthetic ground truth, generator seed 20261202, image 125). The left plateau is
+  // lifted by the scatter of the bright part, yet lies far below its own open level: a blade.
+  SideEvidence left, right, top;
+  left.outside = 4.196, left.inside = 6.375, left.score = 0.470;
+  right.outside = 3.794, right.inside = 5.775, right.score = 0.464;
+  top.outside = 3.121, top.inside = 5.176, top.score = 0.482;
+  for (SideEvidence* e : {&left, &right, &top}) e->step = e->inside - e->outside;
+  Rectangle r;
+  r.sides = {left, right, top, std::nullopt};
+  DropInconsistent(r, 3.066, 4.269);
+  CHECK(r.sides[0].has_value());
+  CHECK(r.sides[1].has_value());
+  CHECK(r.sides[2].has_value());
+
+  // An anatomy edge inside the field: its "blocked" plateau is tissue, above half-way from the
+  // darkest plateau to its own open level, so it goes.
+  SideEvidence outline;
+  outline.outside = 4.9, outline.inside = 6.4, outline.score = 0.3;
+  outline.step = outline.inside - outline.outside;
+  r.sides = {left, right, top, outline};
+  DropInconsistent(r, 3.066, 4.269);
+  CHECK_FALSE(r.sides[3].has_value());
+  CHECK(r.sides[0].has_value());
+}
