@@ -37,6 +37,12 @@ class Builder {
     p.p0 = {x0, y0}; p.p1 = {x1, y1}; p.r = r;
     out.parts.push_back(p);
   }
+  // A body segment of elliptical cross-section: a limb `half_depth` deep along the beam (the
+  // trunk is wider than it is deep).
+  void FlatLimb(double x0, double y0, double x1, double y1, double r, double half_depth) {
+    Limb(x0, y0, x1, y1, r);
+    out.parts.back().weight = half_depth / r;
+  }
   // Long bone: cortical shell around a marrow cavity.
   void Bone(double x0, double y0, double x1, double y1, double r, double wall = 0.45) {
     Primitive p;
@@ -65,6 +71,7 @@ class Builder {
 void Chest(Builder& b, bool lateral) {
   if (lateral) {
     b.Body(0, 20, 125, 240, 165);
+    b.FlatLimb(0, -330, 0, 260, 110, 165);  // the trunk above and below, around the spine
     b.Limb(-20, -230, -60, -420, 45);  // arms raised
     b.Ellipsoid(0, -20, 95, 150, 120, 0, Material::kLungDelta);
     b.Ellipsoid(-35, 60, 65, 70, 60, 0);
@@ -73,6 +80,7 @@ void Chest(Builder& b, bool lateral) {
     return;
   }
   b.Body(0, 20, 165, 235, 110);
+  b.FlatLimb(0, -150, 0, 200, 155, 110);  // the trunk is squarer than an ellipse: the ribs
   b.Limb(0, -230, 0, -340, 55);  // neck
   for (int s : {-1, 1}) {
     b.Body(s * 150, -185, 70, 45, 70);
@@ -92,6 +100,8 @@ void Chest(Builder& b, bool lateral) {
 
 void Abdomen(Builder& b, std::mt19937_64& rng) {
   b.Body(0, 0, 170, 270, 110);
+  b.FlatLimb(0, -320, 0, 0, 160, 110);  // the trunk continues upwards
+  b.FlatLimb(0, 60, 0, 320, 165, 110);  // and down to the hips
   b.Bone(0, -300, 0, 170, 18);
   for (int s : {-1, 1}) {
     b.Ellipsoid(s * 95, 140, 70, 55, 8, s * 20, Material::kBone);
@@ -110,6 +120,7 @@ void Abdomen(Builder& b, std::mt19937_64& rng) {
 
 void Pelvis(Builder& b) {
   b.Body(0, -40, 175, 220, 105);
+  b.FlatLimb(0, -320, 0, -100, 150, 105);  // the trunk continues upwards
   b.Bone(0, -300, 0, 60, 18);
   for (int s : {-1, 1}) {
     b.Limb(s * 90, 140, s * 110, 460, 80);
@@ -153,7 +164,7 @@ void Hand(Builder& b) {
   }
   b.Limb(40, 35, 85, -30, 11);
   b.Bone(40, 35, 83, -27, 5, 0.5);
-  b.Ellipsoid(0, 70, 32, 16, 12, 0, Material::kBone);
+  b.Ellipsoid(0, 70, 28, 16, 12, 0, Material::kBone);  // carpals, inside the wrist
   b.Limb(0, 75, 0, 320, 32);
   b.Bone(-15, 80, -14, 320, 8);
   b.Bone(14, 82, 13, 320, 7);
@@ -162,6 +173,7 @@ void Hand(Builder& b) {
 
 void Forearm(Builder& b) {
   b.Limb(0, -180, 0, 180, 36);
+  b.Limb(0, -320, 0, -200, 42);  // the upper arm around the humerus
   b.Body(0, -200, 48, 40, 40);
   b.Body(0, 240, 45, 55, 14);  // start of the hand
   b.Bone(-16, -220, -15, 215, 8);
@@ -180,7 +192,7 @@ void Knee(Builder& b, bool lateral) {
   b.Ellipsoid(0, 35, 40, 15, 35, 0, Material::kBone);
   if (lateral) {
     b.Ellipsoid(0, -25, 35, 28, 30, 0, Material::kBone);
-    b.Ellipsoid(-55, -10, 12, 25, 12, 0, Material::kBone);  // patella, anterior
+    b.Ellipsoid(-42, -10, 12, 25, 12, 0, Material::kBone);  // patella, anterior, under the skin
   } else {
     for (int s : {-1, 1}) b.Ellipsoid(s * 22, -20, 28, 25, 30, 0, Material::kBone);
     b.Bone(40, 60, 38, 420, 7);
@@ -191,6 +203,7 @@ void Knee(Builder& b, bool lateral) {
 
 void Foot(Builder& b) {
   b.Body(0, 0, 45, 115, 25);
+  b.FlatLimb(-18, -90, 18, -90, 22, 15);  // the forefoot is widest across the metatarsal heads
   for (int k = 0; k < 5; ++k) {
     double x = -32 + k * 15;
     double len = k == 0 ? 40 : 30 - 3 * k;
@@ -198,7 +211,7 @@ void Foot(Builder& b) {
     b.Bone(x * 0.6, -15, x, -100, 4.5, 0.5);
     b.Bone(x, -105, x * 1.1, -100 - len, 3.5, 0.5);
   }
-  b.Ellipsoid(0, 90, 28, 35, 30, 0, Material::kBone);
+  b.Ellipsoid(0, 70, 28, 35, 30, 0, Material::kBone);  // calcaneus, inside the heel pad
   b.Ellipsoid(0, 20, 30, 30, 20, 0, Material::kBone);
   b.out.typical_thickness_mm = 60;
 }
