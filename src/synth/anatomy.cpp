@@ -38,7 +38,7 @@ class Builder {
     out.parts.push_back(p);
   }
   // A body segment of elliptical cross-section: a limb `half_depth` deep along the beam (the
-  // trunk is wider than it is deep).
+  // forefoot is wider than it is deep).
   void FlatLimb(double x0, double y0, double x1, double y1, double r, double half_depth) {
     Limb(x0, y0, x1, y1, r);
     out.parts.back().weight = half_depth / r;
@@ -71,7 +71,6 @@ class Builder {
 void Chest(Builder& b, bool lateral) {
   if (lateral) {
     b.Body(0, 20, 125, 240, 165);
-    b.FlatLimb(0, -330, 0, 260, 110, 165);  // the trunk above and below, around the spine
     b.Limb(-20, -230, -60, -420, 45);  // arms raised
     b.Ellipsoid(0, -20, 95, 150, 120, 0, Material::kLungDelta);
     b.Ellipsoid(-35, 60, 65, 70, 60, 0);
@@ -80,7 +79,6 @@ void Chest(Builder& b, bool lateral) {
     return;
   }
   b.Body(0, 20, 165, 235, 110);
-  b.FlatLimb(0, -150, 0, 200, 155, 110);  // the trunk is squarer than an ellipse: the ribs
   b.Limb(0, -230, 0, -340, 55);  // neck
   for (int s : {-1, 1}) {
     b.Body(s * 150, -185, 70, 45, 70);
@@ -100,8 +98,6 @@ void Chest(Builder& b, bool lateral) {
 
 void Abdomen(Builder& b, std::mt19937_64& rng) {
   b.Body(0, 0, 170, 270, 110);
-  b.FlatLimb(0, -320, 0, 0, 160, 110);  // the trunk continues upwards
-  b.FlatLimb(0, 60, 0, 320, 165, 110);  // and down to the hips
   b.Bone(0, -300, 0, 170, 18);
   for (int s : {-1, 1}) {
     b.Ellipsoid(s * 95, 140, 70, 55, 8, s * 20, Material::kBone);
@@ -120,7 +116,6 @@ void Abdomen(Builder& b, std::mt19937_64& rng) {
 
 void Pelvis(Builder& b) {
   b.Body(0, -40, 175, 220, 105);
-  b.FlatLimb(0, -320, 0, -100, 150, 105);  // the trunk continues upwards
   b.Bone(0, -300, 0, 60, 18);
   for (int s : {-1, 1}) {
     b.Limb(s * 90, 140, s * 110, 460, 80);
