@@ -50,7 +50,7 @@ rm -rf "$OUT/qc"
 # Dated in the reported month, so the report shows the room's QC beside its clinical audit.
 "$BIN" synth-qc --out "$OUT/qc" --count 1 --seed "$SEED" --room XR-ROOM-1 \
   --date "${PERIOD/-/}15"
-qc_image=$(find "$OUT/qc" -name '*.dcm' | sort | head -n 1)
+qc_image=$(find "$OUT/qc" -name '*.dcm' | sort | sed -n 1p)  # sed reads all: no SIGPIPE for sort under pipefail
 "$BIN" qc-field "$qc_image" --store "$OUT/audit.sqlite" --html "$OUT/qc-report.html" || \
   echo "demo: the QC check reported a problem (see above)"
 
@@ -59,7 +59,7 @@ step "report: the busiest month, with feedback sheets"
   --feedback "$OUT/feedback"
 
 step "overlay: one image with its measured field and anatomy"
-first=$(find "$OUT/images" -name '*.dcm' | sort | head -n 1)
+first=$(find "$OUT/images" -name '*.dcm' | sort | sed -n 1p)  # sed reads all: no SIGPIPE for sort under pipefail
 "$BIN" overlay "$first" --png "$OUT/overlay.png"
 
 step "done"
