@@ -225,6 +225,19 @@ std::optional<Band> WidestBlockedBand(const Frame& f, bool vertical, int c_lo, i
   return best;
 }
 
+// Width of a blocked band between the two fields' edges at their 50 % points (the edge
+// definition): the band is widened while whole columns (vertical) or rows stay below `half`.
+// The core that WidestBlockedBand finds is narrower by a share of both penumbrae.
+int GapWidthAtHalf(const Frame& f, bool vertical, Band band, int c_lo, int c_hi, int a_lo,
+                   int a_hi, double half) {
+  auto blocked_at = [&](int c) {
+    return WidestBlockedBand(f, vertical, c, c + 1, a_lo, a_hi, half).has_value();
+  };
+  while (band.lo - 1 > c_lo + 2 && blocked_at(band.lo - 1)) --band.lo;
+  while (band.hi < c_hi - 2 && blocked_at(band.hi)) ++band.hi;
+  return band.hi - band.lo;
+}
+
 double BandMedian(const Frame& f, bool vertical, Band band, int a_lo, int a_hi) {
   std::vector<double> v;
   for (int c = band.lo; c < band.hi; ++c) {
@@ -309,7 +322,9 @@ bool SplitAtBlockedBand(const Frame& frame, double range, double depth_px, doubl
     const int c_lo = vertical ? u_lo : v_lo, c_hi = vertical ? u_hi : v_hi;
     const int a_lo = (vertical ? v_lo : u_lo) + 2, a_hi = (vertical ? v_hi : u_hi) - 2;
     auto band = WidestBlockedBand(frame, vertical, c_lo + 2, c_hi - 2, a_lo, a_hi, below);
-    if (!band || band->hi - band->lo < min_band_px) continue;
+    if (!band) continue;
+    const double half = blocked + 0.5 * (open - blocked);
+    if (GapWidthAtHalf(frame, vertical, *band, c_lo, c_hi, a_lo, a_hi, half) < min_band_px) continue;
     const int first = band->lo - c_lo, second = c_hi - band->hi;
     if (std::min(first, second) < 0.15 * (c_hi - c_lo)) continue;
     // Keep the larger part; its new side lies at the band.

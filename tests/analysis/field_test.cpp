@@ -337,6 +337,25 @@ TEST_CASE("DoubleExposureIsFlagged") {
   }
 }
 
+TEST_CASE("DoubleExposureWithANarrowGapAndWidePenumbraeIsSplit") {
+  // Two fields 19 mm apart (0.5 mm pixels) between their 50 % edges, each edge with a 6 mm
+  // penumbra: at the 2 mm working resolution the band that stays below 30 % of the step is
+  // narrower than the 15 mm a gap must have; between the 50 % points it is wide enough.
+  // Synthetic ground truth.
+  Spec a;
+  a.width = 500;
+  a.cx = 130;
+  a.half = {90, 90, 120, 120};
+  a.penumbra = 12.0;
+  Spec b = a;
+  b.cx = 130 + 90 + 38 + 90;
+  Image ia = testimg::Render(a), ib = testimg::Render(b);
+  for (int y = 0; y < ia.height(); ++y) for (int x = 0; x < ia.width(); ++x) ia.at(x, y) += ib.at(x, y);
+  FieldMeasurement m = DetectField(ia, testimg::Context(true));
+  CHECK(m.double_exposure);
+  CHECK(std::min(Hausdorff(m, a), Hausdorff(m, b)) < 2.0);
+}
+
 TEST_CASE("SingleFieldIsNotADoubleExposure") {
   Spec s;
   s.blobs = {{200, 180, 60, 40, 0.4}};
