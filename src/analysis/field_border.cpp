@@ -6,7 +6,6 @@
 // parallel to the field. docs/method.md, "Blades close to the image border".
 #include <algorithm>
 #include <cmath>
-#include <limits>
 #include <vector>
 
 #include "analysis/field_internal.h"
@@ -15,13 +14,6 @@ namespace beamtrim::field_internal {
 namespace {
 
 constexpr double kDeg = M_PI / 180.0;
-
-double MedianOfRange(std::vector<double> v) {
-  if (v.empty()) return std::numeric_limits<double>::quiet_NaN();
-  auto mid = v.begin() + v.size() / 2;
-  std::nth_element(v.begin(), mid, v.end());
-  return *mid;
-}
 
 // Pixel of a side's border strip at along-edge index t and depth d (0 at the image border,
 // growing into the image).
@@ -72,8 +64,8 @@ std::optional<SegmentEdge> EdgeOnProfile(const std::vector<double>& p, int min_p
   SegmentEdge e;
   std::vector<double> plateau(p.begin(), p.begin() + (best - gap));
   std::vector<double> open(p.begin() + best + gap, p.begin() + best + gap + band);
-  e.outside = MedianOfRange(plateau);
-  e.inside = MedianOfRange(open);
+  e.outside = MedianOf(plateau);
+  e.inside = MedianOf(open);
   const auto [mn, mx] = std::minmax_element(plateau.begin(), plateau.end());
   e.spread = *mx - *mn;
   if (!(e.inside > e.outside)) return std::nullopt;
@@ -152,9 +144,8 @@ std::optional<BorderBlade> FindBladeNearBorder(const Image& image, const Working
   // One straight line through the rises (depth against along-edge position).
   std::vector<double> depths;
   for (const auto& p : pts) depths.push_back(p.y);
-  const Line start{0.0, 1.0, MedianOfRange(depths)};
-  double inlier_share = 0.0;
-  const Line fit = RobustLineFit(pts, start, std::max(1.0, 0.5 / pitch), &inlier_share);
+  const Line start{0.0, 1.0, MedianOf(depths)};
+  const Line fit = RobustLineFit(pts, start, std::max(1.0, 0.5 / pitch));
   const double tol = std::max(1.5, 1.0 / pitch);
   std::vector<double> outs, ins;
   int inliers = 0;
@@ -179,8 +170,8 @@ std::optional<BorderBlade> FindBladeNearBorder(const Image& image, const Working
 
   BorderBlade out;
   SideEvidence& ev = out.evidence;
-  ev.outside = MedianOfRange(outs);
-  ev.inside = MedianOfRange(ins);
+  ev.outside = MedianOf(outs);
+  ev.inside = MedianOf(ins);
   ev.step = ev.inside - ev.outside;
   ev.support = support;
   ev.coverage = support;
@@ -189,7 +180,7 @@ std::optional<BorderBlade> FindBladeNearBorder(const Image& image, const Working
   // found, or, with none, not the bright plateau of an anatomy outline (DropInconsistent).
   if (in.blocked) {
     if (ev.outside > *in.blocked + 0.5 * (ev.inside - *in.blocked)) return std::nullopt;
-  } else if (ev.outside > in.lo + kBrightPlateau * in.range && ev.step < kSmallStep * in.range) {
+  } else if (AnatomyOutlinePlateau(ev.outside, ev.step, in.lo, in.range)) {
     return std::nullopt;
   }
   // Back to image coordinates: depth = a + b t with the line's normal out of the field.

@@ -124,8 +124,6 @@ void DropInconsistent(Rectangle& r, double lo, double range) {
   }
   if (!ref) return;
   const double floor = darkest + 0.25 * (ref->inside - darkest);
-  const double bright_plateau = lo + kBrightPlateau * range;
-  const double small_step = kSmallStep * range;
   for (auto& s : r.sides) {
     if (!s) continue;
     // Half-way to the higher of the two open levels: the open level differs from side to side
@@ -133,7 +131,7 @@ void DropInconsistent(Rectangle& r, double lo, double range) {
     // field is lifted by its scatter and glow with it.
     const double open = std::max(ref->inside, s->inside);
     const double limit = darkest + 0.5 * (open - darkest);
-    const bool anatomy_outline = s->outside > bright_plateau && s->step < small_step;
+    const bool anatomy_outline = AnatomyOutlinePlateau(s->outside, s->step, lo, range);
     if (s->outside > limit || s->inside < floor || anatomy_outline) s.reset();
   }
 }

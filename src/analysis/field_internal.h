@@ -47,6 +47,9 @@ struct WorkingImage {
 // of linear input, as Prepare takes it).
 double WorkingValue(const WorkingImage& working, double mean);
 
+// Median of the values (the upper one of the middle pair for an even count); 0 when empty.
+double MedianOf(std::vector<double> values);
+
 // Percentile (0..100) of the values where mask != 0 (all values when the mask is empty).
 double Percentile(const cv::Mat1f& values, const cv::Mat1b& mask, double pct);
 
@@ -107,6 +110,12 @@ inline constexpr double kMinRelativeStep = 0.08;
 // of it, is an anatomy outline when no other side gives the blocked level (DropInconsistent).
 inline constexpr double kBrightPlateau = 0.6;
 inline constexpr double kSmallStep = 0.3;
+// Such a plateau: an anatomy outline with more anatomy beyond (an arm beside the chest, the
+// body's edge), not a blade, which removes most of the exposure. `lo`, `range`: the robust
+// low end and extent of the working values.
+inline bool AnatomyOutlinePlateau(double outside, double step, double lo, double range) {
+  return outside > lo + kBrightPlateau * range && step < kSmallStep * range;
+}
 
 // Largest fall of the blocked level from the edge to 40 mm beyond it, relative to the step.
 // Off-focus radiation through the aperture leaves a halo that slopes away from the edge for

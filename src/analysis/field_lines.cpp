@@ -21,14 +21,6 @@ namespace {
 
 constexpr double kDeg = M_PI / 180.0;
 
-template <class T>
-double Median(std::vector<T>& v) {
-  if (v.empty()) return 0.0;
-  auto mid = v.begin() + v.size() / 2;
-  std::nth_element(v.begin(), mid, v.end());
-  return *mid;
-}
-
 // A side's frame pixels as (along-edge index t, across index a) through element strides, so
 // the kernels below walk raw rows for every side; SideView (field_lines_reference.h) is the
 // slow, checked form of the same access.
@@ -578,11 +570,10 @@ SideEvidence JudgeSide(StripStats& st, const std::function<BeyondCounts(double, 
     ev.why_not = "edge too short";
     return ev;
   }
-  std::vector<double> tmp = outs;
-  ev.outside = Median(tmp);
+  ev.outside = MedianOf(outs);
   // The open level: upper quartile of the inside strip, because part of the edge may run
   // under the perpendicular blades (dark on both sides) and must not dilute it.
-  tmp = ins;
+  std::vector<double> tmp = ins;
   std::nth_element(tmp.begin(), tmp.begin() + (3 * tmp.size()) / 4, tmp.end());
   ev.inside = tmp[(3 * tmp.size()) / 4];
   ev.step = ev.inside - ev.outside;

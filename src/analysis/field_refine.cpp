@@ -10,13 +10,6 @@
 namespace beamtrim::field_internal {
 namespace {
 
-double MedianOf(std::vector<double> v) {
-  if (v.empty()) return 0.0;
-  auto mid = v.begin() + v.size() / 2;
-  std::nth_element(v.begin(), mid, v.end());
-  return *mid;
-}
-
 double MedianRange(const std::vector<double>& p, int a, int b) {
   a = std::max(a, 0);
   b = std::min(b, static_cast<int>(p.size()));

@@ -119,6 +119,13 @@ int WorkingFactor(const Image& image, const FieldContext& context, const FieldOp
   return std::max(1, static_cast<int>(std::lround(factor)));
 }
 
+double MedianOf(std::vector<double> values) {
+  if (values.empty()) return 0.0;
+  auto mid = values.begin() + values.size() / 2;
+  std::nth_element(values.begin(), mid, values.end());
+  return *mid;
+}
+
 double Percentile(const cv::Mat1f& values, const cv::Mat1b& mask, double pct) {
   std::vector<float> v;
   v.reserve(values.total());
