@@ -2,6 +2,10 @@
 // side with a plain baseline (Otsu threshold, largest contour, minimum-area rectangle).
 // Not a test: prints a table (docs/validation.md, "Field detection").
 //   bench_field [--count N] [--full K] [--seed S] [--full-mm P] [--dump DIR] [--only CLASS]
+//               [--perturb quantize8|blur|noise|gamma]
+// --perturb changes every image after generation in a way the generator itself never does (an
+// 8-bit export, a softer detector, more noise, another display curve), to see how much of the
+// accuracy survives images the detector was not developed on.
 // Every situation class is drawn in turn with fixed seeds; one core (OpenCV threads off).
 #include <algorithm>
 #include <chrono>
@@ -99,6 +103,41 @@ std::vector<double> SideOffsetsMm(const FieldMeasurement& found, const FieldMeas
   return out;
 }
 
+// Deterministic per image (seeded by its index), so runs compare image by image.
+void Perturb(const std::string& kind, int index, Image* image) {
+  cv::Mat1f v(image->height(), image->width(), image->data());
+  if (kind == "quantize8") {
+    // An 8-bit export windowed on the 0.5-99.5 percentiles: the blocked plateau and the
+    // brightest open field clip, and the levels between become coarse steps.
+    std::vector<float> all(v.begin(), v.end());
+    std::sort(all.begin(), all.end());
+    const float lo = all[all.size() / 200], hi = all[all.size() - 1 - all.size() / 200];
+    const float scale = hi > lo ? 255.0f / (hi - lo) : 1.0f;
+    for (float& x : v) x = lo + std::round(std::clamp((x - lo) * scale, 0.0f, 255.0f)) / scale;
+  } else if (kind == "blur") {
+    cv::GaussianBlur(v, v, cv::Size(0, 0), 1.5);  // symmetric: the 50 % points stay put
+  } else if (kind == "noise") {
+    // Added noise of a tenth of the median level, independent of the signal.
+    std::vector<float> all(v.begin(), v.end());
+    std::nth_element(all.begin(), all.begin() + all.size() / 2, all.end());
+    cv::Mat1f n(v.size());
+    cv::RNG rng(static_cast<uint64_t>(index) * 7919 + 17);
+    rng.fill(n, cv::RNG::NORMAL, 0.0, 0.1 * std::fabs(all[all.size() / 2]));
+    v += n;
+    cv::max(v, 0.0f, v);
+  } else if (kind == "gamma") {
+    // Another monotonic display curve on the same range (the order of levels is kept).
+    double lo, hi;
+    cv::minMaxLoc(v, &lo, &hi);
+    if (hi > lo) {
+      for (float& x : v) x = static_cast<float>(lo + (hi - lo) * std::pow((x - lo) / (hi - lo), 0.6));
+    }
+  } else if (!kind.empty()) {
+    std::fprintf(stderr, "bench_field: unknown --perturb %s\n", kind.c_str());
+    std::exit(2);
+  }
+}
+
 Row RunOne(const SynthImage& img, double pixel_mm, bool full, Polygon* found) {
   Row r;
   r.situation = img.situation;
@@ -155,6 +194,12 @@ Row RunOne(const SynthImage& img, double pixel_mm, bool full, Polygon* found) {
   r.blanked_right = m.blanked == t.blanked;
   r.cropped_right = m.cropped == t.cropped;
   r.double_right = m.double_exposure == t.double_exposure;
+  if (std::getenv("BENCH_FIELD_VERBOSE") &&
+      !(r.open_right && r.blanked_right && r.cropped_right && r.double_right)) {
+    std::fprintf(stderr, "  flags found/true: open %d/%d blanked %d/%d cropped %d/%d double %d/%d\n",
+                 m.open, t.open, m.blanked, t.blanked, m.cropped, t.cropped, m.double_exposure,
+                 t.double_exposure);
+  }
   return r;
 }
 
@@ -208,6 +253,7 @@ int main(int argc, char** argv) {
   double full_mm = 0.143;  // 3000 px across a 430 mm receptor
   std::string dump;         // folder for pictures of the images with a Hausdorff > 2 mm
   std::string only;         // one situation class (its name), for quicker runs while working
+  std::string perturb;      // a change to every image after generation (see Perturb)
   for (int i = 1; i + 1 < argc; i += 2) {
     const std::string a = argv[i];
     if (a == "--count") count = std::atoi(argv[i + 1]);
@@ -216,6 +262,7 @@ int main(int argc, char** argv) {
     else if (a == "--full-mm") full_mm = std::atof(argv[i + 1]);
     else if (a == "--dump") dump = argv[i + 1];
     else if (a == "--only") only = argv[i + 1];
+    else if (a == "--perturb") perturb = argv[i + 1];
   }
   cv::setNumThreads(1);
   const std::vector<SynthSituation> classes = AllSynthSituations();
@@ -228,7 +275,8 @@ int main(int argc, char** argv) {
     o.pixel_mm = is_full ? full_mm : 0.5;
     o.syntax = TransferSyntax::kExplicitLittle;
     const SynthScenario sc = RandomScenario(seed, i, o);
-    const SynthImage img = Generate(sc);
+    SynthImage img = Generate(sc);
+    Perturb(perturb, i, &img.pixels);
     Polygon found;
     rows.push_back(RunOne(img, sc.pixel_mm, is_full, &found));
     if (!dump.empty() && rows.back().hausdorff_mm > 2.0) DumpFailure(dump, i, img, found);
@@ -236,8 +284,9 @@ int main(int argc, char** argv) {
       std::fprintf(stderr, "index %d %s: %.2f mm\n", i, img.situation.c_str(), rows.back().hausdorff_mm);
     }
   }
-  std::printf("Field detection on %d synthetic images (%d at 0.5 mm, %d at %.3f mm), seed %llu\n",
-              count + full, count, full, full_mm, static_cast<unsigned long long>(seed));
+  std::printf("Field detection on %d synthetic images (%d at 0.5 mm, %d at %.3f mm), seed %llu%s%s\n",
+              count + full, count, full, full_mm, static_cast<unsigned long long>(seed),
+              perturb.empty() ? "" : ", perturbed: ", perturb.c_str());
   std::printf("Hausdorff distance detected vs true clipped polygon, mm; gross = > 10 mm\n");
   std::printf("%-16s %4s | %6s %6s %7s %7s %7s %7s | %7s %7s %7s\n", "situation", "n", "median",
               "p90", "p99", "gross", "sides", "flags", "base-md", "base-90", "b-gross");

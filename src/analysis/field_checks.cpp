@@ -2,6 +2,7 @@
 // plate, and the half-plane clip used to build the field polygon.
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <map>
 #include <vector>
 
@@ -30,18 +31,30 @@ std::optional<float> BorderConstant(const Blocks& b) {
   return best;
 }
 
+// Smallest positive difference between the distinct values in `v`: the grey-level spacing of
+// an image exported with few levels (8 bits), tiny on float or 16-bit data.
+double Quantum(std::vector<float> v) {
+  std::sort(v.begin(), v.end());
+  v.erase(std::unique(v.begin(), v.end()), v.end());
+  double q = std::numeric_limits<double>::infinity();
+  for (size_t i = 1; i < v.size(); ++i) q = std::min(q, static_cast<double>(v[i] - v[i - 1]));
+  return std::isfinite(q) ? q : 0.0;
+}
+
 // At the mask boundary: the median step from a masked pixel to its unmasked neighbour
-// (`jump`) and the median step from that neighbour one pixel further on (`next`). A mask
-// cuts the image abruptly (jump >> next); a clipped or noiseless plateau meeting a penumbra
-// ramp continues smoothly (jump ~ next).
+// (`jump`), the median step from that neighbour one pixel further on (`next`) and the grey-
+// level spacing of the pixels there (`quantum`). A mask cuts the image abruptly (jump >>
+// next); a clipped or noiseless plateau meeting a penumbra ramp continues smoothly (jump ~
+// next), or in single grey levels when the image has few of them.
 void BoundarySteps(const Image& image, const cv::Mat1b& mask, int factor, float c,
-                   double* jump, double* next) {
+                   double* jump, double* next, double* quantum) {
   cv::Mat1b ring;
   cv::dilate(mask, ring, cv::Mat());
   cv::Mat1b inner;
   cv::erode(mask, inner, cv::Mat());
   ring = ring & ~inner;
   std::vector<double> jumps, nexts;
+  std::vector<float> levels{c};
   const int dirs[4][2] = {{-1, 0}, {1, 0}, {0, -1}, {0, 1}};
   auto inside = [&](int x, int y) { return x >= 0 && y >= 0 && x < image.width() && y < image.height(); };
   for (int by = 0; by < ring.rows; ++by) {
@@ -57,6 +70,8 @@ void BoundarySteps(const Image& image, const cv::Mat1b& mask, int factor, float 
             if (vp == c || vq == c) continue;
             jumps.push_back(std::fabs(vp - c));
             nexts.push_back(std::fabs(vq - vp));
+            levels.push_back(vp);
+            levels.push_back(vq);
           }
         }
       }
@@ -69,6 +84,7 @@ void BoundarySteps(const Image& image, const cv::Mat1b& mask, int factor, float 
   };
   *jump = median(jumps);
   *next = median(nexts);
+  *quantum = Quantum(std::move(levels));
 }
 
 }  // namespace
@@ -108,9 +124,11 @@ BlankResult FindBlankMask(const Image& image, const Blocks& blocks, int factor, 
   const double hi = Percentile(blocks.mean, rest, 99.9);
   const double lo = Percentile(blocks.mean, rest, 0.1);
   const double span = std::max({std::fabs(hi - *c), std::fabs(lo - *c), 1e-12});
-  double jump = 0.0, next = 0.0;
-  BoundarySteps(image, out.mask, factor, *c, &jump, &next);
-  const double floor = linear ? 0.0 : 0.005 * span;
+  // On an image with few grey levels a clipped plateau meets the ramp in single-level steps,
+  // and the ramp's next step is often no step at all: a jump of one or two levels is no mask.
+  double jump = 0.0, next = 0.0, quantum = 0.0;
+  BoundarySteps(image, out.mask, factor, *c, &jump, &next, &quantum);
+  const double floor = std::max(linear ? 0.0 : 0.005 * span, 2.0 * quantum);
   if (jump <= floor || jump < 3.0 * next) {
     out.mask.setTo(0);
     return out;

@@ -288,6 +288,37 @@ TEST_CASE("BlankMaskNeedsAJumpNotAClippedPlateau") {
   CHECK_FALSE(FindBlankMask(c, cb, 4, false).blanked);
 }
 
+TEST_CASE("BlankMaskIsNotAGreyLevelBandOfAnEightBitExport") {
+  // An 8-bit export (256 grey levels over the image's range, common practice for images
+  // shared outside the archive, no single source) turns a blocked plateau with a gentle
+  // slope (here the heel effect) into bands of one grey level each; the band at the image
+  // border is exactly constant over whole blocks and meets the next band in a one-level step,
+  // with the next pixel on the same level (no smooth ramp to compare with). That is no mask,
+  // on a raw image too, where no display-scale floor applies.
+  testimg::Spec s;
+  s.half = {120, 110, 1000, 1000};  // left and right blades only
+  s.blocked = 0.05;
+  s.heel = 0.5;
+  Image img = testimg::Render(s);
+  auto quantize = [](Image* im) {
+    const float q = 1000.0f / 255.0f;  // the open level is the top of the range
+    for (int y = 0; y < im->height(); ++y) {
+      for (int x = 0; x < im->width(); ++x) im->at(x, y) = std::round(im->at(x, y) / q) * q;
+    }
+  };
+  quantize(&img);
+  Blocks b = DownsampleBlocks(img, 4);
+  CHECK_FALSE(FindBlankMask(img, b, 4, true).blanked);
+
+  // A mask in the same export still jumps by many grey levels and is found.
+  testimg::Spec m = s;
+  m.blank_outside = RectPolygon(60, 50, 340, 310);
+  Image masked = testimg::Render(m);
+  quantize(&masked);
+  Blocks mb = DownsampleBlocks(masked, 4);
+  CHECK(FindBlankMask(masked, mb, 4, true).blanked);
+}
+
 TEST_CASE("BlankMaskAtZeroBesideLowLeakageOnLinearImages") {
   // Lead blades pass well under 0.1 % of the primary beam (trade notes, collimator leakage);
   // a mask set to zero next to such a plateau jumps by only that plateau's level, a tiny share
