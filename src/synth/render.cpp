@@ -35,6 +35,12 @@ double EdgeTransmission(double inside_mm, double penumbra_mm, double aperture_mm
   return (RampIntegral(inside_mm + a, P) - RampIntegral(inside_mm - a, P)) / aperture_mm;
 }
 
+double SmoothEdgeTransmission(double inside_mm, double width_mm) {
+  // Width taken as the full width at half maximum of a Gaussian source profile.
+  const double sigma = std::max(width_mm, 1e-9) / 2.3548;
+  return 0.5 * std::erfc(-inside_mm / (sigma * std::sqrt(2.0)));
+}
+
 BeamModel::BeamModel(const SynthScenario& sc) : sc_(sc), frame_(sc) {
   for (int k = 0; k < 4; ++k) {
     double d = k < 2 ? sc.blade_distance_lr_mm : sc.blade_distance_tb_mm;
@@ -54,7 +60,7 @@ double BeamModel::Collimator(double x, double y) const {
   double focal = 1.0, off = 1.0;
   for (int k = 0; k < 4; ++k) {
     focal *= EdgeTransmission(in[k], focal_[k], sc_.pixel_mm);
-    off *= EdgeTransmission(in[k], off_[k], sc_.pixel_mm);
+    off *= SmoothEdgeTransmission(in[k], off_[k]);
   }
   double open = (1.0 - sc_.off_focus_fraction) * focal + sc_.off_focus_fraction * off;
   return sc_.blade_transmission + (1.0 - sc_.blade_transmission) * open;

@@ -21,6 +21,13 @@ struct ExposureMaps {
 // `penumbra_mm`, averaged over a detector aperture of `aperture_mm` (0 = point sample).
 double EdgeTransmission(double inside_mm, double penumbra_mm, double aperture_mm);
 
+// Shadow of one blade edge for the extra-focal (off-focus) radiation: a broad source whose
+// intensity falls off smoothly away from the focal spot, so its shadow is an error function
+// of full width at half maximum `width_mm` (the projected source extent), not a ramp: a
+// ramp's kinks at both ends show as false straight edges far outside the field once the
+// image is log-transformed and sharpened. Shape from memory, no single source.
+double SmoothEdgeTransmission(double inside_mm, double width_mm);
+
 // The beam of one scenario with its per-scenario constants precomputed.
 class BeamModel {
  public:

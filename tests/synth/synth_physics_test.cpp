@@ -77,6 +77,22 @@ TEST_CASE("BladeShadowIsHalfTransmittedAtTheGeometricEdgeAndSymmetric") {
   CHECK(synth_internal::EdgeTransmission(-3.0, 4.0, 0.0) == doctest::Approx(0.0));
 }
 
+TEST_CASE("OffFocusShadowIsSmoothWithTheSourceWidthAsItsHalfMaximum") {
+  // The shadow of an edge is the integral of the source profile across it, so its slope is the
+  // profile itself: half of its peak at +-FWHM / 2 (definition of the full width at half
+  // maximum), 50 % transmission at the edge, and no end to the slope (no kink to show as an
+  // edge after a log transform).
+  const double w = 60.0, h = 1e-4;
+  auto slope = [&](double x) {
+    return (synth_internal::SmoothEdgeTransmission(x + h, w) -
+            synth_internal::SmoothEdgeTransmission(x - h, w)) / (2 * h);
+  };
+  CHECK(synth_internal::SmoothEdgeTransmission(0.0, w) == doctest::Approx(0.5));
+  CHECK(slope(0.5 * w) == doctest::Approx(0.5 * slope(0.0)).epsilon(1e-4));
+  CHECK(slope(-0.5 * w) == doctest::Approx(0.5 * slope(0.0)).epsilon(1e-4));
+  CHECK(slope(w) > 0.0);
+}
+
 TEST_CASE("RenderedEdgeProfileHasTheFormulaPenumbraAndItsMidpointOnTheEdge") {
   // Noiseless bare beam at 0.05 mm pixels. For a uniform focal spot the blade shadow is a
   // linear ramp of width P = f (SID - d) / d (Bushberg et al.), so its 10-90 % width is 0.8 P;
