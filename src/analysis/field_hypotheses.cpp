@@ -113,6 +113,36 @@ void MeasureWithinNeighbours(FrameQueries& q, Rectangle& r) {
   r.sides = measured;
 }
 
+// The blade beyond a small field over dense anatomy may shadow open air beside the patient,
+// whose leakage and off-focus glow can be brighter than half-way up the step: the bright-
+// beyond test then rejects a true blade. A step that closes the rectangle exactly where both
+// perpendicular blades' own steps end is kept all the same: anatomy does not end two straight
+// edges on a third one at right angles.
+bool CornerCorroborated(FrameQueries& q, const Rectangle& r, Side s, int position) {
+  const bool vertical = Vertical(s);
+  const Side lo_side = vertical ? Side::kTop : Side::kLeft;
+  const Side hi_side = vertical ? Side::kBottom : Side::kRight;
+  const auto& a = r.sides[static_cast<int>(lo_side)];
+  const auto& b = r.sides[static_cast<int>(hi_side)];
+  if (!a || !b) return false;
+  const int along = vertical ? q.frame().value.cols : q.frame().value.rows;
+  const bool low = s == Side::kLeft || s == Side::kTop;
+  for (const auto* ev : {&*a, &*b}) {
+    const Side perp = ev == &*a ? lo_side : hi_side;
+    const Span run = q.StepSpanAt(perp, static_cast<int>(ev->position), Span{0, along});
+    const int end = low ? run.lo : run.hi;
+    if (std::abs(end - position) > 2) return false;
+  }
+  return true;
+}
+
+void LiftCorroborated(FrameQueries& q, const Rectangle& r, Side s, int position, SideEvidence* ev) {
+  if (ev->blade || !ev->only_bright || !CornerCorroborated(q, r, s, position)) return;
+  ev->blade = true;
+  ev->lifted = true;
+  ev->why_not.clear();
+}
+
 }  // namespace
 
 void DropInconsistent(Rectangle& r, double lo, double range) {
@@ -150,6 +180,7 @@ Rectangle BestRectangle(const Frame& frame, double lo, double range, double dept
         if (!Compatible(r, s, p)) continue;
         const Span tested = bounded ? span : q.StepSpanAt(s, p, span);
         SideEvidence ev = q.Evaluate(s, p, tested, bounded);
+        LiftCorroborated(q, r, s, p, &ev);
         if (ev.blade && (!best || ev.score > best->score)) best = ev;
       }
       auto& slot = r.sides[static_cast<int>(s)];
@@ -167,15 +198,23 @@ Rectangle BestRectangle(const Frame& frame, double lo, double range, double dept
     auto& slot = r.sides[static_cast<int>(s)];
     if (!slot) continue;
     SideEvidence ev = q.Evaluate(s, static_cast<int>(slot->position), SpanFor(r, s, frame), true);
+    LiftCorroborated(q, r, s, static_cast<int>(slot->position), &ev);
     if (ev.blade) slot = ev; else slot.reset();
   }
   DropInconsistent(r, lo, range);
+  // Four blades whose steps all end on each other close the rectangle: the tests below are
+  // for single edges that might be anatomy.
+  bool closed = true;
+  for (Side s : kAllSides) {
+    const auto& slot = r.sides[static_cast<int>(s)];
+    closed = closed && slot && CornerCorroborated(q, r, s, static_cast<int>(slot->position));
+  }
   // A side with bright regions far beyond its dark strip is kept only when a side with a
   // clean half-plane shows the same blocked level (a second exposure beyond a real blade);
   // otherwise it is more likely an anatomy edge with tissue beyond.
   for (Side s : kAllSides) {
     auto& slot = r.sides[static_cast<int>(s)];
-    if (!slot || slot->bright_far <= 0.1) continue;
+    if (!slot || slot->bright_far <= 0.1 || closed) continue;
     bool confirmed = false;
     for (const auto& other : r.sides) {
       if (other && other->bright_far <= 0.1 && slot->bright <= 0.02 &&
@@ -184,6 +223,17 @@ Rectangle BestRectangle(const Frame& frame, double lo, double range, double dept
       }
     }
     if (!confirmed) slot.reset();
+  }
+  // A side kept only because the rectangle closed on it goes when its neighbours have gone.
+  for (bool dropped = true; dropped;) {
+    dropped = false;
+    for (Side s : kAllSides) {
+      auto& slot = r.sides[static_cast<int>(s)];
+      if (slot && slot->lifted && !CornerCorroborated(q, r, s, static_cast<int>(slot->position))) {
+        slot.reset();
+        dropped = true;
+      }
+    }
   }
   r.score = 0.0;
   for (const auto& s : r.sides) r.score += s ? s->score : 0.0;

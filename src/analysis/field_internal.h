@@ -102,6 +102,8 @@ struct SideEvidence {
   double texture = 0.0;    // share of the outside strip with structure
   double flatness = 0.0;   // outside level fall-off away from the edge, relative to step
   std::string why_not;     // first failed test
+  bool only_bright = false; // fails only the bright-beyond test
+  bool lifted = false;      // kept despite it: the rectangle is closed there (field_hypotheses.cpp)
 };
 
 // Smallest step, as a share of the robust value range, that a blade edge may have.

@@ -624,6 +624,8 @@ SideEvidence JudgeSide(StripStats& st, const std::function<BeyondCounts(double, 
   else if (ev.texture > 0.12) ev.why_not = "structured (anatomy) beyond the edge";
   else if (ev.flatness > kMaxFallOff) ev.why_not = "no flat blocked plateau beyond the edge";
   ev.blade = ev.why_not.empty();
+  ev.only_bright = ev.why_not == "bright structures beyond the edge" && ev.texture <= 0.12 &&
+                   ev.flatness <= kMaxFallOff;
   return ev;
 }
 

@@ -266,6 +266,27 @@ TEST_CASE("AnatomyEdgeInsideACollimatedFieldLeavesTheBladesAlone") {
   CHECK(Hausdorff(m, s) < 1.0);
 }
 
+TEST_CASE("BladeShadowingAirBesideDenseAnatomyClosesTheRectangle") {
+  // A small field over dense anatomy whose right blade also shadows the air beside the
+  // patient. Under the blade the air passes the blade's leakage unattenuated, the patient
+  // only a fifth of it: on the log scale the blocked air lies above half-way between the
+  // blocked patient and the open field (Beer-Lambert: ln 80 = 4.4 > (ln 16 + ln 200) / 2 =
+  // 4.0), so the outside of a true blade looks bright. The left, top and bottom steps end
+  // exactly on it, which anatomy does not do (the corners are no darker than the sides:
+  // scatter, not leakage, sets the blocked level).
+  Spec s;
+  s.width = 300;                  // the air beside the patient: the last 4 mm of the image
+  s.half = {60, 60, 50, 50};      // a 60 x 50 mm field at 0.5 mm pixels, right edge x = 260
+  // The patient thins out from 6 to 16 mm beyond the right blade (a rounded outline), air
+  // beyond: six layers of 0.2^(1/6) transmission each.
+  for (int k = 0; k < 6; ++k) s.bands.push_back({0, 272.0 + 4 * k, std::pow(0.2, 1.0 / 6)});
+  s.floor_blocked = true;
+  s.noise = 0.005;
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  CHECK(VisibleCount(m) == 4);
+  CHECK(Hausdorff(m, s) < 1.0);
+}
+
 TEST_CASE("LeadMarkerOnAnEdgeDoesNotMoveIt") {
   Spec s;
   s.blobs = {{200 - 120, 150, 8, 14, 0.02}};  // on the left edge, inside and outside

@@ -35,6 +35,9 @@ struct Spec {
   double open = 1000.0;
   double heel = 0.0;               // relative fall-off from top to bottom
   double plateau_slope = 0.0;      // extra blocked signal falling with distance from the edge
+  // The blocked level as one floor under all blades (scatter and glow dominate there), not a
+  // product per blade: the corners where two blades overlap are no darker than the sides.
+  bool floor_blocked = false;
   double noise = 0.0;              // Gaussian rms relative to the open level
   std::vector<Blob> blobs;
   std::vector<Band> bands;
@@ -85,13 +88,15 @@ inline Image Render(const Spec& s) {
   for (int y = 0; y < s.height; ++y) {
     for (int x = 0; x < s.width; ++x) {
       const Point2d p{x + 0.5, y + 0.5};
-      double t = 1.0;
+      double t = 1.0, open = 1.0;
       for (const Line& l : lines) {
         const double d = -l.SignedDistance(p);  // positive inside
         double blocked = s.blocked;
         if (s.plateau_slope > 0 && d < 0) blocked += s.plateau_slope * std::exp(d / 60.0);
         t *= blocked + (1.0 - blocked) * Ramp(d, s.penumbra);
+        open *= Ramp(d, s.penumbra);
       }
+      if (s.floor_blocked) t = s.blocked + (1.0 - s.blocked) * open;
       for (const Blob& b : s.blobs) {
         const double q = std::pow((p.x - b.cx) / b.rx, 2) + std::pow((p.y - b.cy) / b.ry, 2);
         if (q <= 1.0) t *= b.transmission;
