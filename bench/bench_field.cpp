@@ -2,7 +2,7 @@
 // side with a plain baseline (Otsu threshold, largest contour, minimum-area rectangle).
 // Not a test: prints a table (docs/validation.md, "Field detection").
 //   bench_field [--count N] [--full K] [--seed S] [--full-mm P] [--dump DIR] [--only CLASS]
-//               [--perturb quantize8|blur|noise|gamma]
+//               [--perturb quantize8|jpeg|blur|noise|gamma]
 // --perturb changes every image after generation in a way the generator itself never does (an
 // 8-bit export, a softer detector, more noise, another display curve), to see how much of the
 // accuracy survives images the detector was not developed on.
@@ -114,6 +114,18 @@ void Perturb(const std::string& kind, int index, Image* image) {
     const float lo = all[all.size() / 200], hi = all[all.size() - 1 - all.size() / 200];
     const float scale = hi > lo ? 255.0f / (hi - lo) : 1.0f;
     for (float& x : v) x = lo + std::round(std::clamp((x - lo) * scale, 0.0f, 255.0f)) / scale;
+  } else if (kind == "jpeg") {
+    // The same 8-bit export, then baseline JPEG at quality 90 (lossy compression of images
+    // shared outside the archive): ringing beside every sharp edge, masks included.
+    double lo, hi;
+    cv::minMaxLoc(v, &lo, &hi);
+    const double scale = hi > lo ? 255.0 / (hi - lo) : 1.0;
+    cv::Mat1b eight;
+    v.convertTo(eight, CV_8U, scale, -lo * scale);
+    std::vector<uchar> bytes;
+    cv::imencode(".jpg", eight, bytes, {cv::IMWRITE_JPEG_QUALITY, 90});
+    cv::Mat1b back = cv::imdecode(bytes, cv::IMREAD_GRAYSCALE);
+    back.convertTo(v, CV_32F, 1.0 / scale, lo);
   } else if (kind == "blur") {
     cv::GaussianBlur(v, v, cv::Size(0, 0), 1.5);  // symmetric: the 50 % points stay put
   } else if (kind == "noise") {
