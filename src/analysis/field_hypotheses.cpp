@@ -136,8 +136,12 @@ bool CornerCorroborated(FrameQueries& q, const Rectangle& r, Side s, int positio
   return true;
 }
 
-void LiftCorroborated(FrameQueries& q, const Rectangle& r, Side s, int position, SideEvidence* ev) {
-  if (ev->blade || !ev->only_bright || !CornerCorroborated(q, r, s, position)) return;
+// `provisional`: keep it now and let the end of the search decide (when the neighbours that
+// would corroborate it are themselves only bright-beyond sides).
+void LiftCorroborated(FrameQueries& q, const Rectangle& r, Side s, int position, bool provisional,
+                      SideEvidence* ev) {
+  if (ev->blade || !ev->only_bright) return;
+  if (!provisional && !CornerCorroborated(q, r, s, position)) return;
   ev->blade = true;
   ev->lifted = true;
   ev->why_not.clear();
@@ -166,10 +170,13 @@ void DropInconsistent(Rectangle& r, double lo, double range) {
   }
 }
 
-Rectangle BestRectangle(const Frame& frame, double lo, double range, double depth_px) {
+namespace {
+
+// Coordinate ascent over the sides' candidates, then the checks of the whole rectangle.
+Rectangle SearchRectangle(FrameQueries& q, double lo, double range, bool provisional) {
+  const Frame& frame = q.frame();
   Rectangle r;
   r.angle_deg = frame.angle_deg;
-  FrameQueries q(frame, range, depth_px);
   for (int pass = 0; pass < 4; ++pass) {
     bool changed = false;
     for (Side s : kAllSides) {
@@ -180,7 +187,7 @@ Rectangle BestRectangle(const Frame& frame, double lo, double range, double dept
         if (!Compatible(r, s, p)) continue;
         const Span tested = bounded ? span : q.StepSpanAt(s, p, span);
         SideEvidence ev = q.Evaluate(s, p, tested, bounded);
-        LiftCorroborated(q, r, s, p, &ev);
+        LiftCorroborated(q, r, s, p, provisional, &ev);
         if (ev.blade && (!best || ev.score > best->score)) best = ev;
       }
       auto& slot = r.sides[static_cast<int>(s)];
@@ -198,7 +205,7 @@ Rectangle BestRectangle(const Frame& frame, double lo, double range, double dept
     auto& slot = r.sides[static_cast<int>(s)];
     if (!slot) continue;
     SideEvidence ev = q.Evaluate(s, static_cast<int>(slot->position), SpanFor(r, s, frame), true);
-    LiftCorroborated(q, r, s, static_cast<int>(slot->position), &ev);
+    LiftCorroborated(q, r, s, static_cast<int>(slot->position), provisional, &ev);
     if (ev.blade) slot = ev; else slot.reset();
   }
   DropInconsistent(r, lo, range);
@@ -238,6 +245,23 @@ Rectangle BestRectangle(const Frame& frame, double lo, double range, double dept
   r.score = 0.0;
   for (const auto& s : r.sides) r.score += s ? s->score : 0.0;
   return r;
+}
+
+}  // namespace
+
+Rectangle BestRectangle(const Frame& frame, double lo, double range, double depth_px) {
+  FrameQueries q(frame, range, depth_px);
+  Rectangle r = SearchRectangle(q, lo, range, false);
+  if (std::all_of(r.sides.begin(), r.sides.end(), [](const auto& s) { return s.has_value(); })) {
+    return r;
+  }
+  // When several sides of a small field over dense anatomy look bright beyond, none can be
+  // corroborated by the others in the first search; a second one keeps them provisionally
+  // and is taken only if all four close on each other.
+  Rectangle closed = SearchRectangle(q, lo, range, true);
+  const bool four = std::all_of(closed.sides.begin(), closed.sides.end(),
+                                [](const auto& s) { return s.has_value(); });
+  return four ? closed : r;
 }
 
 namespace {

@@ -168,7 +168,10 @@ struct Rectangle {
 // beside the chest, the body's edge), not a blade. Removes such sides from `r`.
 void DropInconsistent(Rectangle& r, double lo, double range);
 // Best rectangle at one angle by coordinate ascent over the four sides. `lo` and `range`: the
-// robust low end and extent of the working values (WorkingImage::lo, hi - lo).
+// robust low end and extent of the working values (WorkingImage::lo, hi - lo). When that
+// leaves a side open, a second ascent keeps the sides that fail only the bright-beyond test
+// provisionally and is taken if all four sides then close on each other (docs/method.md,
+// "closed rectangle").
 Rectangle BestRectangle(const Frame& frame, double lo, double range, double depth_px);
 
 // Two exposures side by side on one plate (computed radiography) make a rectangle whose

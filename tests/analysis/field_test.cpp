@@ -287,6 +287,26 @@ TEST_CASE("BladeShadowingAirBesideDenseAnatomyClosesTheRectangle") {
   CHECK(Hausdorff(m, s) < 1.0);
 }
 
+TEST_CASE("SmallFieldInsideAHeadClosesTheRectangleOnAllFourSides") {
+  // The same physics all round: a small field inside a rounded patient outline with air
+  // beyond it on every side, so every blade's outside looks bright and none can be
+  // corroborated by neighbours already accepted. All four close on each other.
+  Spec s;
+  s.half = {40, 40, 30, 30};      // 40 x 30 mm at 0.5 mm pixels, centred
+  s.floor_blocked = true;
+  s.noise = 0.005;
+  // Six nested ellipses of 0.2^(1/6) transmission each: the patient (transmission 0.2 in
+  // the middle) thins out from 6 to 26 px beyond the ellipse through the field's corners.
+  for (int k = 0; k < 6; ++k) {
+    const double grow = 6.0 + 4.0 * k;
+    s.blobs.push_back({s.cx, s.cy, 40 * std::sqrt(2.0) + grow, 30 * std::sqrt(2.0) + grow,
+                       std::pow(0.2, 1.0 / 6)});
+  }
+  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
+  CHECK(VisibleCount(m) == 4);
+  CHECK(Hausdorff(m, s) < 1.0);
+}
+
 TEST_CASE("LeadMarkerOnAnEdgeDoesNotMoveIt") {
   Spec s;
   s.blobs = {{200 - 120, 150, 8, 14, 0.02}};  // on the left edge, inside and outside
