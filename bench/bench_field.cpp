@@ -115,8 +115,9 @@ void Perturb(const std::string& kind, int index, Image* image) {
     const float scale = hi > lo ? 255.0f / (hi - lo) : 1.0f;
     for (float& x : v) x = lo + std::round(std::clamp((x - lo) * scale, 0.0f, 255.0f)) / scale;
   } else if (kind == "jpeg") {
-    // The same 8-bit export, then baseline JPEG at quality 90 (lossy compression of images
-    // shared outside the archive): ringing beside every sharp edge, masks included.
+    // An 8-bit export over the image's whole range (masks keep their value), then baseline
+    // JPEG at quality 90 (lossy compression of images shared outside the archive): ringing
+    // beside every sharp edge, masks included.
     double lo, hi;
     cv::minMaxLoc(v, &lo, &hi);
     const double scale = hi > lo ? 255.0 / (hi - lo) : 1.0;

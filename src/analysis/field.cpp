@@ -128,9 +128,10 @@ double SideConfidence(const SideEvidence& e, double range) {
   const double rel = e.step / std::max(range, 1e-9);
   // A side kept because the rectangle closes on it failed the bright-beyond test: the margin
   // there is taken as none (confidence 0.5 at most) rather than negative.
-  const double bright_margin = e.lifted ? 0.0 : (0.1 - e.bright) / 0.1;
+  const double bright_margin = e.lifted ? 0.0 : (kMaxBrightShare - e.bright) / kMaxBrightShare;
   const double margin = std::min({(e.support - 0.6) / 0.4, bright_margin,
-                                  (0.12 - e.texture) / 0.12, (kMaxFallOff - e.flatness) / kMaxFallOff,
+                                  (kMaxTexturedShare - e.texture) / kMaxTexturedShare,
+                                  (kMaxFallOff - e.flatness) / kMaxFallOff,
                                   (rel - kMinRelativeStep) / 0.12, 1.0});
   return std::clamp(0.5 + 0.5 * margin, 0.0, 1.0);
 }

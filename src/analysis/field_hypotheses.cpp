@@ -122,13 +122,11 @@ bool CornerCorroborated(FrameQueries& q, const Rectangle& r, Side s, int positio
   const bool vertical = Vertical(s);
   const Side lo_side = vertical ? Side::kTop : Side::kLeft;
   const Side hi_side = vertical ? Side::kBottom : Side::kRight;
-  const auto& a = r.sides[static_cast<int>(lo_side)];
-  const auto& b = r.sides[static_cast<int>(hi_side)];
-  if (!a || !b) return false;
   const int along = vertical ? q.frame().value.cols : q.frame().value.rows;
   const bool low = s == Side::kLeft || s == Side::kTop;
-  for (const auto* ev : {&*a, &*b}) {
-    const Side perp = ev == &*a ? lo_side : hi_side;
+  for (Side perp : {lo_side, hi_side}) {
+    const auto& ev = r.sides[static_cast<int>(perp)];
+    if (!ev) return false;
     const Span run = q.StepSpanAt(perp, static_cast<int>(ev->position), Span{0, along});
     const int end = low ? run.lo : run.hi;
     if (std::abs(end - position) > 2) return false;

@@ -106,6 +106,10 @@ struct SideEvidence {
   bool lifted = false;      // kept despite it: the rectangle is closed there (field_hypotheses.cpp)
 };
 
+// Largest shares of a side's outside strip that may be brighter than half-way up its step,
+// or show structure, for a blade (JudgeSide; SideConfidence measures its margins from them).
+inline constexpr double kMaxBrightShare = 0.1;
+inline constexpr double kMaxTexturedShare = 0.12;
 // Smallest step, as a share of the robust value range, that a blade edge may have.
 inline constexpr double kMinRelativeStep = 0.08;
 // A blocked plateau above this share of the robust range, reached by a step below kSmallStep

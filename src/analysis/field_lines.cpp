@@ -617,15 +617,18 @@ SideEvidence JudgeSide(StripStats& st, const std::function<BeyondCounts(double, 
   const double sup2 = ev.support * ev.support;
   ev.score = rel * sup2 * sup2 * ev.coverage * ev.coverage * (1.0 - ev.bright) * (1.0 - ev.texture) *
              (1.0 - std::clamp(ev.flatness, 0.0, 1.0));
+  const bool step_ok = rel >= kMinRelativeStep && ev.support >= 0.6 && (!bounded || ev.coverage >= 0.5);
+  const bool bright = ev.bright > kMaxBrightShare;
+  const bool textured = ev.texture > kMaxTexturedShare;
+  const bool falling = ev.flatness > kMaxFallOff;
   if (rel < kMinRelativeStep) ev.why_not = "contrast too low";
   else if (ev.support < 0.6) ev.why_not = "step along less than 60 % of the edge";
   else if (bounded && ev.coverage < 0.5) ev.why_not = "step along less than half of the field side";
-  else if (ev.bright > 0.1) ev.why_not = "bright structures beyond the edge";
-  else if (ev.texture > 0.12) ev.why_not = "structured (anatomy) beyond the edge";
-  else if (ev.flatness > kMaxFallOff) ev.why_not = "no flat blocked plateau beyond the edge";
+  else if (bright) ev.why_not = "bright structures beyond the edge";
+  else if (textured) ev.why_not = "structured (anatomy) beyond the edge";
+  else if (falling) ev.why_not = "no flat blocked plateau beyond the edge";
   ev.blade = ev.why_not.empty();
-  ev.only_bright = ev.why_not == "bright structures beyond the edge" && ev.texture <= 0.12 &&
-                   ev.flatness <= kMaxFallOff;
+  ev.only_bright = step_ok && bright && !textured && !falling;
   return ev;
 }
 
