@@ -118,35 +118,92 @@ EdgeCrossing LocateCrossing(const std::vector<double>& p, double step, double fr
   return out;
 }
 
-std::optional<double> SymmetricExposureCrossing(const std::vector<double>& p, double step) {
-  const auto t = FindTransition(p);
-  if (!t) return std::nullopt;
-  const int n = static_cast<int>(p.size());
-  struct Try {
-    double k = 0.0, asymmetry = 0.0, centre = 0.0;
-  };
-  auto attempt = [&](double k) -> std::optional<Try> {
+namespace {
+
+struct GainTry {
+  double k = 0.0;          // display gain: the open level is e^k times the blocked one
+  double asymmetry = 0.0;  // (c50 - c25) - (c75 - c50), profile samples
+  double centre = 0.0;     // the 50 % exposure crossing, profile samples
+};
+
+// How far a profile's transition is from point symmetry about its 50 % exposure point when
+// the display is taken as affine in log exposure with gain k. A symmetric blur of the blade
+// shadow is point-symmetric in exposure.
+class SymmetryProbe {
+ public:
+  explicit SymmetryProbe(const std::vector<double>& p) : p_(p), t_(FindTransition(p)) {}
+  bool usable() const { return t_.has_value(); }
+  std::optional<GainTry> At(double k) const {
     auto at = [&](double f) {
-      return NearestCrossing(p, t->steepest,
-                             t->low + DisplayFractionOfExposure(f, k) * (t->high - t->low));
+      return NearestCrossing(p_, t_->steepest,
+                             t_->low + DisplayFractionOfExposure(f, k) * (t_->high - t_->low));
     };
     const auto c25 = at(0.25), c50 = at(0.5), c75 = at(0.75);
     if (!c25 || !c50 || !c75) return std::nullopt;
-    // A symmetric blur of the blade shadow is point-symmetric about its 50 % exposure point.
-    return Try{k, (*c50 - *c25) - (*c75 - *c50), *c50};
-  };
-  // Curvatures e^k from 1/50 to e^16.
-  std::optional<Try> previous;
-  for (double k = -4.0; k <= 16.0 + 1e-9; k += 0.1) {
-    const auto now = attempt(k);
-    if (now && previous && previous->asymmetry < 0.0 && now->asymmetry >= 0.0) {
-      const double w = previous->asymmetry / (previous->asymmetry - now->asymmetry);
-      const double centre = previous->centre + w * (now->centre - previous->centre);
-      return (centre - 0.5 * (n - 1)) * step;
-    }
-    if (now) previous = now;
+    return GainTry{k, (*c50 - *c25) - (*c75 - *c50), *c50};
   }
-  return std::nullopt;
+  // The first gain in [from, to], in steps of `by`, at which the asymmetry turns from negative
+  // to non-negative, with the usable tries on either side.
+  std::optional<std::pair<GainTry, GainTry>> FirstTurn(double from, double to, double by) const {
+    std::optional<GainTry> previous;
+    for (double k = from; k <= to + 1e-9; k += by) {
+      const auto now = At(k);
+      if (now && previous && previous->asymmetry < 0.0 && now->asymmetry >= 0.0) {
+        return std::make_pair(*previous, *now);
+      }
+      if (now) previous = now;
+    }
+    return std::nullopt;
+  }
+  // The zero of the asymmetry between two tries, linearly interpolated, as an offset from the
+  // profile centre in px.
+  double CentreAtZero(const std::pair<GainTry, GainTry>& turn, double step) const {
+    const GainTry& before = turn.first;
+    const GainTry& after = turn.second;
+    const double w = before.asymmetry / (before.asymmetry - after.asymmetry);
+    const double centre = before.centre + w * (after.centre - before.centre);
+    return (centre - 0.5 * (static_cast<double>(p_.size()) - 1)) * step;
+  }
+
+ private:
+  const std::vector<double>& p_;
+  std::optional<Transition> t_;
+};
+
+// Gains e^k from 1/50 to e^16, in tenths.
+constexpr double kGainFrom = -4.0, kGainTo = 16.0, kGainStep = 0.1;
+
+}  // namespace
+
+std::optional<double> SymmetricExposureCrossing(const std::vector<double>& p, double step) {
+  const SymmetryProbe probe(p);
+  if (!probe.usable()) return std::nullopt;
+  // Half steps first, then tenths inside the half step where the asymmetry turns: the same
+  // turn as tenths over the whole range unless it turns and turns back within half a step;
+  // when half steps see no turn, tenths over the whole range.
+  const auto coarse = probe.FirstTurn(kGainFrom, kGainTo, 0.5);
+  const auto turn = coarse ? probe.FirstTurn(coarse->first.k, coarse->second.k, kGainStep)
+                                 .value_or(*coarse)
+                           : probe.FirstTurn(kGainFrom, kGainTo, kGainStep);
+  if (!turn) return std::nullopt;
+  return probe.CentreAtZero(*turn, step);
+}
+
+std::optional<double> SymmetricExposureCrossingReference(const std::vector<double>& p,
+                                                         double step) {
+  const SymmetryProbe probe(p);
+  if (!probe.usable()) return std::nullopt;
+  const auto turn = probe.FirstTurn(kGainFrom, kGainTo, kGainStep);
+  if (!turn) return std::nullopt;
+  return probe.CentreAtZero(*turn, step);
+}
+
+double SymmetricExposurePoint(const std::vector<double>& p, double step, const EdgeCrossing& e) {
+  const auto symmetric = SymmetricExposureCrossing(p, step);
+  if (!symmetric || std::fabs(*symmetric - e.span_centre) > std::max(1.0, e.penumbra)) {
+    return e.span_centre;
+  }
+  return *symmetric;
 }
 
 Line RobustLineFit(const std::vector<Point2d>& pts, const Line& start, double scale_px,
@@ -201,16 +258,32 @@ Line RobustLineFit(const std::vector<Point2d>& pts, const Line& start, double sc
 
 namespace {
 
+// Profile across a line through c, from h outside to h inside in steps of `step`, each sample
+// averaged over 2 * tangential + 1 positions along the line (direction t).
+void SampleAcross(const Image& image, Point2d c, const Line& line, Point2d t, double h,
+                  double step, int tangential, std::vector<double>* prof) {
+  for (size_t i = 0; i < prof->size(); ++i) {
+    const double o = h - i * step;  // outside (index 0) to inside
+    double sum = 0.0;
+    for (int j = -tangential; j <= tangential; ++j) {
+      sum += SampleBilinear(image, c.x + o * line.nx + j * t.x, c.y + o * line.ny + j * t.y);
+    }
+    (*prof)[i] = sum / (2 * tangential + 1);
+  }
+}
+
 struct ProfileSet {
   std::vector<Point2d> points;
-  std::vector<std::vector<double>> profiles;  // kept only when asked
+  // Processed images with the half-transition definition: each point's profile and crossing.
+  std::vector<std::vector<double>> profiles;
+  std::vector<EdgeCrossing> crossings;
   std::vector<double> lows, highs, penumbras;
   int quarter_misses = 0;
 };
 
 ProfileSet SampleProfiles(const Image& image, const Line& line, Point2d a, Point2d b,
                           double half, bool linear, EdgeDefinition def, const cv::Mat1b* valid,
-                          int factor, bool keep_profiles = false) {
+                          int factor) {
   ProfileSet set;
   const double len = std::hypot(b.x - a.x, b.y - a.y);
   if (len < 1.0) return set;
@@ -238,14 +311,7 @@ ProfileSet SampleProfiles(const Image& image, const Line& line, Point2d a, Point
     const double cx = qx - d * nx, cy = qy - d * ny;
     if (!is_valid(cx + h * nx, cy + h * ny) || !is_valid(cx - h * nx, cy - h * ny)) continue;
     if (cx < 0 || cy < 0 || cx > image.width() || cy > image.height()) continue;
-    for (int i = 0; i < m; ++i) {
-      const double o = h - i * step;  // outside (index 0) to inside
-      double sum = 0.0;
-      for (int j = -tangential; j <= tangential; ++j) {
-        sum += SampleBilinear(image, cx + o * nx + j * tx, cy + o * ny + j * ty);
-      }
-      prof[i] = sum / (2 * tangential + 1);
-    }
+    SampleAcross(image, {cx, cy}, line, {tx, ty}, h, step, tangential, &prof);
     std::optional<double> absolute;
     if (def == EdgeDefinition::kQuarterMaximum && linear) {
       absolute = 0.25 * *std::max_element(prof.begin() + m / 2, prof.end());
@@ -257,43 +323,20 @@ ProfileSet SampleProfiles(const Image& image, const Line& line, Point2d a, Point
     }
     if (!e.ok) continue;
     // On a processed (log-like) image the 50 % display level lies towards the blocked side
-    // of the linear 50 % point; the centre of the 10-90 % span lies much closer to it.
-    const double offset = (!linear && def == EdgeDefinition::kHalfTransition) ? e.span_centre : e.offset;
+    // of the linear 50 % point; the centre of the 10-90 % span lies much closer to it, and
+    // RefineSide moves each point to its symmetric exposure point once the line has settled.
+    const bool processed_half = !linear && def == EdgeDefinition::kHalfTransition;
+    const double offset = processed_half ? e.span_centre : e.offset;
+    if (processed_half) {
+      set.profiles.push_back(prof);
+      set.crossings.push_back(e);
+    }
     set.points.push_back({cx - offset * nx, cy - offset * ny});
     set.lows.push_back(e.low);
     set.highs.push_back(e.high);
     set.penumbras.push_back(e.penumbra);
-    if (keep_profiles) set.profiles.push_back(prof);
   }
   return set;
-}
-
-// Median, sample by sample, of profiles of equal length (markers and noise drop out).
-std::vector<double> MedianProfile(const std::vector<std::vector<double>>& profiles) {
-  std::vector<double> out(profiles.front().size()), column(profiles.size());
-  for (size_t i = 0; i < out.size(); ++i) {
-    for (size_t k = 0; k < profiles.size(); ++k) column[k] = profiles[k][i];
-    out[i] = MedianOf(column);
-  }
-  return out;
-}
-
-// On a processed image the line fitted through the 10-90 % span centres still lies towards
-// the blocked side of the blade's projection: the display is roughly logarithmic in exposure,
-// so the transition is lopsided. The median profile across the fitted line shows by how much;
-// the line is moved to its 50 % exposure point (at most one penumbra width).
-Line MoveToSymmetricExposurePoint(const Image& image, const Line& line, Point2d a, Point2d b,
-                                  double half, const cv::Mat1b* valid, int factor) {
-  const ProfileSet set = SampleProfiles(image, line, a, b, half, false,
-                                        EdgeDefinition::kHalfTransition, valid, factor, true);
-  if (set.profiles.size() < 3) return line;
-  const std::vector<double> median = MedianProfile(set.profiles);
-  const EdgeCrossing fitted = LocateCrossing(median, 0.5, 0.5);
-  const auto symmetric = SymmetricExposureCrossing(median, 0.5);
-  if (!fitted.ok || !symmetric) return line;
-  const double shift = *symmetric - fitted.span_centre;  // + = inward
-  if (std::fabs(shift) > std::max(1.0, fitted.penumbra)) return line;
-  return Line{line.nx, line.ny, line.c - shift};
 }
 
 }  // namespace
@@ -325,8 +368,16 @@ RefinedSide RefineSide(const Image& image, const Line& coarse, Point2d a, Point2
     half = truncated ? std::min(3.0 * penumbra, widest) : std::clamp(3.0 * penumbra, 8.0, search_px);
     fit_scale = truncated ? std::max(1.0, penumbra / 4) : 1.0;
   }
-  if (!linear && definition == EdgeDefinition::kHalfTransition) {
-    line = MoveToSymmetricExposurePoint(image, line, a, b, half, valid, factor);
+  if (!set.profiles.empty()) {
+    // Processed image: every point moved to its own profile's symmetric exposure point, and the
+    // line fitted again. Per profile, as the lopsidedness depends on the local contrast.
+    for (size_t i = 0; i < set.points.size(); ++i) {
+      const EdgeCrossing& e = set.crossings[i];
+      const double inward = SymmetricExposurePoint(set.profiles[i], 0.5, e) - e.span_centre;
+      set.points[i].x -= inward * line.nx;
+      set.points[i].y -= inward * line.ny;
+    }
+    line = RobustLineFit(set.points, line, 1.0, &out.inlier_share);
   }
   out.ok = true;
   out.line = line;
