@@ -247,6 +247,19 @@ std::pair<double, double> AlongExtent(const Polygon& base, const std::array<std:
   return {lo, hi};
 }
 
+// Whether a refined side follows an arc (FollowsAnArc): the bow of its refined points first,
+// and only when that alone looks like an arc, the costlier second tracing.
+bool EdgeFollowsAnArc(const Image& image, const WorkingImage& wk, const RefinedSide& r,
+                      Point2d a, Point2d b, double pixel_mm) {
+  const double length = std::hypot(b.x - a.x, b.y - a.y);
+  const double min_sagitta_px = std::max(kArcMinSagittaMm / pixel_mm, kArcMinBowShare * length);
+  if (!FollowsAnArc(r.bow, r.bow, min_sagitta_px)) return false;
+  // Wide enough for the middle of an arc whose ends lie on the fitted line.
+  const double half = r.window_px + 0.25 * length;
+  const EdgeBow traced = TraceEdgeBow(image, r.line, a, b, half, r.level, &wk.valid, wk.factor);
+  return FollowsAnArc(r.bow, traced, min_sagitta_px);
+}
+
 // Sides the working-resolution search left without a blade may still have one a few
 // millimetres inside the border (FindBladeNearBorder). Only for fields square to the image
 // within a few degrees: a turned blade runs away from the border and was searched already.
@@ -355,6 +368,10 @@ FieldMeasurement DetectField(const Image& image, const FieldContext& ctx,
     if (ev) coarse[static_cast<int>(s)] = FrameSideLine(best_frame, s, ev->position, wk.factor);
   }
   if (!blank.blanked) DropImplausibleCorner(base, &coarse);
+  // Full-resolution pixel size (when the spacing is unknown, taken as the working pixel's
+  // intended 2 mm over the factor).
+  const double pixel_mm = (prep.working_mm > 0 ? prep.working_mm : 2.0) / wk.factor;
+  std::array<bool, 4> arc_sides{};
   // Sub-pixel refinement of each blade edge between its neighbours.
   auto refine = [&](Side s) {
     const int i = static_cast<int>(s);
@@ -386,6 +403,12 @@ FieldMeasurement DetectField(const Image& image, const FieldContext& ctx,
       sm.penumbra_px = r.penumbra_px;
       sm.contrast_ratio = r.contrast_ratio;
       sm.confidence *= std::clamp(0.5 + r.inlier_share, 0.0, 1.0);
+      if (EdgeFollowsAnArc(image, wk, r, a, b, pixel_mm)) {
+        arc_sides[i] = true;
+        sm.confidence = std::min(sm.confidence, kArcSideConfidence);
+        m.notes.push_back(std::string(SideName(s)) +
+                          ": edge bows like an arc, possibly an anatomy outline and not a blade");
+      }
       if (r.quarter_fallback) {
         m.notes.push_back(std::string(SideName(s)) +
                           ": blocked level above a quarter of the maximum, 50 % transition used");
@@ -399,6 +422,26 @@ FieldMeasurement DetectField(const Image& image, const FieldContext& ctx,
   };
   for (Side s : kAllSides) {
     if (coarse[static_cast<int>(s)]) refine(s);
+  }
+  // Every edge found follows an arc: the outline of a round structure (gas over dense tissue,
+  // a bright organ in an open image), not a collimated field. A single arc beside true blades
+  // is kept: on small fields over round dense anatomy true blades bow too (docs/method.md).
+  const bool only_arcs =
+      std::any_of(refined.begin(), refined.end(), [](const auto& l) { return l.has_value(); }) &&
+      std::all_of(kAllSides.begin(), kAllSides.end(), [&](Side s) {
+        return !refined[static_cast<int>(s)] || arc_sides[static_cast<int>(s)];
+      });
+  if (only_arcs) {
+    for (Side s : kAllSides) {
+      const int i = static_cast<int>(s);
+      if (!refined[i]) continue;
+      refined[i].reset();
+      coarse[i].reset();
+      best.sides[i].reset();
+      m.side(s) = SideMeasurement{};
+      m.side(s).side = s;
+    }
+    m.notes.push_back("every edge found follows an arc: an anatomy outline, not a collimated field");
   }
   for (Side s : AddBladesNearBorder(image, prep, ctx, base, FieldAngle(refined, best.angle_deg),
                                     &best, &coarse)) {
@@ -439,7 +482,9 @@ FieldMeasurement DetectField(const Image& image, const FieldContext& ctx,
     const double nx[4] = {-ca, ca, sa, -sa}, ny[4] = {-sa, sa, -ca, ca};
     const Line dir{nx[i], ny[i], 0.0};
     const bool along_columns = std::fabs(dir.nx) >= std::fabs(dir.ny);
-    if (blank.blanked && EndsAtMask(poly, dir, wk)) {
+    if (only_arcs && arc_sides[i]) {
+      sm.reason = "edge found follows an arc (an anatomy outline), not a blade shadow";
+    } else if (blank.blanked && EndsAtMask(poly, dir, wk)) {
       sm.reason = "outside electronically blanked: the blade edge may be hidden under the mask";
       m.blanked_or_cropped_sides.push_back(s);
     } else if (cropped_axes[along_columns ? 1 : 0]) {

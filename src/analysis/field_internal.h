@@ -266,6 +266,19 @@ double SampleBilinear(const Image& image, double x, double y);
 Line RobustLineFit(const std::vector<Point2d>& points, const Line& start, double scale_px,
                    double* inlier_share = nullptr);
 
+// Bow of an edge along a side: a quadratic fitted robustly (Tukey's biweight) to the edge's
+// offsets from the fitted line, d(u) = a + b u + c u^2 with u = -1 .. 1 from end to end. The
+// sagitta is how far the middle lies from the chord through the ends (px, + = towards the
+// outside). A blade's shadow is straight; the outline of a round structure is not.
+struct EdgeBow {
+  double sagitta_px = 0.0;
+  double standard_error_px = 0.0;  // of the sagitta, from the residual spread
+  double spread_px = 0.0;          // robust spread (1.4826 MAD) of the residuals
+  int points = 0;                  // points the fit kept (nonzero weight)
+};
+// Fits the quadratic to points given as (position along the side, signed offset).
+EdgeBow FitBow(const std::vector<Point2d>& along_offset);
+
 struct RefinedSide {
   bool ok = false;
   Line line;                      // normal points out of the field
@@ -274,11 +287,39 @@ struct RefinedSide {
   double inlier_share = 0.0;
   int profiles = 0;
   bool quarter_fallback = false;  // quarter maximum asked but not found on this edge
+  // Bow of the edge points about the line fitted through them, before the processed-image
+  // shift to each profile's symmetric exposure point (which adds noise of its own).
+  EdgeBow bow;
+  double level = 0.0;             // midway between the blocked and open levels (medians)
+  double window_px = 0.0;         // half-width of the last profiles
 };
 // Refines a coarse side line at full resolution along the segment [a, b] of the line.
 RefinedSide RefineSide(const Image& image, const Line& coarse, Point2d a, Point2d b,
                        double search_px, bool linear, EdgeDefinition definition,
                        const cv::Mat1b* valid, int factor);
+
+// Bow of the same edge traced another way: on each profile across [a, b] (half-width `half`,
+// wide enough for the middle of an arc), the crossing of one `level` for the whole side
+// nearest to the line. Independent of the per-profile levels RefineSide's points use.
+EdgeBow TraceEdgeBow(const Image& image, const Line& line, Point2d a, Point2d b, double half,
+                     double level, const cv::Mat1b* valid, int factor);
+
+// An edge that follows an arc rather than a straight blade shadow: both tracings bow the same
+// way, by at least `min_sagitta_px` and by at least kArcCleanness times their residual
+// spread, and agree on the sagitta within a factor kArcAgreement. Shadows of true blades on
+// processed images can bow one tracing (the display's local levels move along the edge) but
+// then the two disagree or the bow is ragged (docs/method.md, "Arcs are no blades"). The
+// caller's minimum is the larger of kArcMinSagittaMm and kArcMinBowShare of the side's
+// length: an arc of radius R bows by L / (8 R) of its chord L, so a round outline that a side
+// follows over a quarter of its radius or more bows by at least 3 %, while the small bends of
+// long blade shadows (anatomy, a mask beside them) stay well under it.
+constexpr double kArcMinSagittaMm = 1.0;
+constexpr double kArcMinBowShare = 0.03;
+constexpr double kArcCleanness = 3.0;
+constexpr double kArcAgreement = 1.5;
+// Confidence of a side that follows an arc beside true blades (at most).
+constexpr double kArcSideConfidence = 0.5;
+bool FollowsAnArc(const EdgeBow& points, const EdgeBow& traced, double min_sagitta_px);
 
 // ---- Polygon and checks (field_checks.cpp) ----------------------------------------------
 

@@ -5,6 +5,8 @@
 #include <cmath>
 #include <vector>
 
+#include <Eigen/Dense>
+
 #include "analysis/field_internal.h"
 
 namespace beamtrim::field_internal {
@@ -341,6 +343,133 @@ ProfileSet SampleProfiles(const Image& image, const Line& line, Point2d a, Point
 
 }  // namespace
 
+EdgeBow FitBow(const std::vector<Point2d>& along_offset) {
+  EdgeBow bow;
+  const size_t n = along_offset.size();
+  if (n < 5) return bow;
+  double lo = along_offset.front().x, hi = lo;
+  for (const Point2d& p : along_offset) {
+    lo = std::min(lo, p.x);
+    hi = std::max(hi, p.x);
+  }
+  if (!(hi > lo)) return bow;
+  std::vector<double> u(n), d(n), r(n), w(n, 1.0);
+  for (size_t i = 0; i < n; ++i) {
+    u[i] = 2.0 * (along_offset[i].x - lo) / (hi - lo) - 1.0;
+    d[i] = along_offset[i].y;
+  }
+  // Iteratively reweighted least squares with Tukey's biweight, from the median offset.
+  Eigen::Vector3d coef(MedianOf(d), 0.0, 0.0);
+  double sigma = 0.0;
+  Eigen::Matrix3d normal = Eigen::Matrix3d::Zero();
+  for (int iter = 0; iter < 20; ++iter) {
+    std::vector<double> abs_r(n);
+    for (size_t i = 0; i < n; ++i) {
+      r[i] = d[i] - (coef[0] + coef[1] * u[i] + coef[2] * u[i] * u[i]);
+      abs_r[i] = std::fabs(r[i]);
+    }
+    sigma = std::max(1.4826 * MedianOf(abs_r), 0.05);
+    const double c = 4.685 * sigma;  // Tukey biweight, 95 % efficiency constant
+    normal.setZero();
+    Eigen::Vector3d rhs = Eigen::Vector3d::Zero();
+    for (size_t i = 0; i < n; ++i) {
+      const double q = r[i] / c;
+      w[i] = std::fabs(q) < 1.0 ? (1 - q * q) * (1 - q * q) : 0.0;
+      const Eigen::Vector3d x(1.0, u[i], u[i] * u[i]);
+      normal += w[i] * x * x.transpose();
+      rhs += w[i] * d[i] * x;
+    }
+    if (std::fabs(normal.determinant()) < 1e-12) return bow;
+    coef = normal.ldlt().solve(rhs);
+  }
+  Eigen::Matrix3d unweighted = Eigen::Matrix3d::Zero();
+  for (size_t i = 0; i < n; ++i) {
+    if (w[i] <= 0.0) continue;
+    const Eigen::Vector3d x(1.0, u[i], u[i] * u[i]);
+    unweighted += x * x.transpose();
+    ++bow.points;
+  }
+  if (bow.points < 5 || std::fabs(unweighted.determinant()) < 1e-12) return bow;
+  bow.sagitta_px = -coef[2];  // the middle against the chord through the ends
+  bow.spread_px = sigma;
+  bow.standard_error_px = sigma * std::sqrt(unweighted.inverse()(2, 2));
+  return bow;
+}
+
+namespace {
+
+// On each profile across [a, b], the crossing of `level` nearest to the line, as (position
+// along the side, offset towards the outside) pairs.
+std::vector<Point2d> TraceLevel(const Image& image, const Line& line, Point2d a, Point2d b,
+                               double half, double level, const cv::Mat1b* valid, int factor) {
+  std::vector<Point2d> out;
+  const double len = std::hypot(b.x - a.x, b.y - a.y);
+  if (len < 1.0) return out;
+  const Point2d t{(b.x - a.x) / len, (b.y - a.y) / len};
+  const double step = 0.5;
+  const int m = 2 * static_cast<int>(std::ceil(half / step)) + 1;
+  const double h = 0.5 * (m - 1) * step;
+  const int count = std::clamp(static_cast<int>(len / 4.0), 3, 80);
+  const int tangential = std::clamp(factor / 4, 1, 3);
+  std::vector<double> prof(m);
+  for (int k = 0; k < count; ++k) {
+    const double s = (k + 0.5) * len / count;
+    const Point2d q{a.x + s * t.x, a.y + s * t.y};
+    const double d = line.SignedDistance(q);
+    const Point2d c{q.x - d * line.nx, q.y - d * line.ny};
+    if (c.x < 0 || c.y < 0 || c.x > image.width() || c.y > image.height()) continue;
+    bool inside_valid = true;
+    if (valid && !valid->empty()) {
+      for (double o : {-h, h}) {
+        const int wx = static_cast<int>((c.x + o * line.nx) / factor);
+        const int wy = static_cast<int>((c.y + o * line.ny) / factor);
+        if (wx >= 0 && wy >= 0 && wx < valid->cols && wy < valid->rows && (*valid)(wy, wx) == 0) {
+          inside_valid = false;
+        }
+      }
+    }
+    if (!inside_valid) continue;
+    SampleAcross(image, c, line, t, h, step, tangential, &prof);
+    if (auto j = NearestCrossing(prof, (m - 1) / 2, level)) out.push_back({s, h - *j * step});
+  }
+  return out;
+}
+
+}  // namespace
+
+EdgeBow TraceEdgeBow(const Image& image, const Line& line, Point2d a, Point2d b, double half,
+                     double level, const cv::Mat1b* valid, int factor) {
+  return FitBow(TraceLevel(image, line, a, b, half, level, valid, factor));
+}
+
+bool FollowsAnArc(const EdgeBow& points, const EdgeBow& traced, double min_sagitta_px) {
+  if (points.points < 5 || traced.points < 5) return false;
+  if (points.sagitta_px * traced.sagitta_px <= 0.0) return false;
+  for (const EdgeBow& bow : {points, traced}) {
+    const double sagitta = std::fabs(bow.sagitta_px);
+    if (sagitta < min_sagitta_px || sagitta < kArcCleanness * bow.spread_px) return false;
+  }
+  const double ratio = std::fabs(points.sagitta_px / traced.sagitta_px);
+  return ratio <= kArcAgreement && ratio >= 1.0 / kArcAgreement;
+}
+
+namespace {
+
+// Bow of edge points about a line, along [a, b].
+EdgeBow BowAbout(const std::vector<Point2d>& points, const Line& line, Point2d a, Point2d b) {
+  const double len = std::hypot(b.x - a.x, b.y - a.y);
+  if (len < 1.0) return {};
+  const double tx = (b.x - a.x) / len, ty = (b.y - a.y) / len;
+  std::vector<Point2d> along_offset;
+  along_offset.reserve(points.size());
+  for (const Point2d& q : points) {
+    along_offset.push_back({(q.x - a.x) * tx + (q.y - a.y) * ty, line.SignedDistance(q)});
+  }
+  return FitBow(along_offset);
+}
+
+}  // namespace
+
 RefinedSide RefineSide(const Image& image, const Line& coarse, Point2d a, Point2d b,
                        double search_px, bool linear, EdgeDefinition definition,
                        const cv::Mat1b* valid, int factor) {
@@ -368,6 +497,7 @@ RefinedSide RefineSide(const Image& image, const Line& coarse, Point2d a, Point2
     half = truncated ? std::min(3.0 * penumbra, widest) : std::clamp(3.0 * penumbra, 8.0, search_px);
     fit_scale = truncated ? std::max(1.0, penumbra / 4) : 1.0;
   }
+  out.bow = BowAbout(set.points, line, a, b);
   if (!set.profiles.empty()) {
     // Processed image: every point moved to its own profile's symmetric exposure point, and the
     // line fitted again. Per profile, as the lopsidedness depends on the local contrast.
@@ -387,6 +517,8 @@ RefinedSide RefineSide(const Image& image, const Line& coarse, Point2d a, Point2
   if (!linear && low > 0.0) out.contrast_ratio = high / low;
   out.penumbra_px = MedianOf(set.penumbras);
   out.quarter_fallback = set.quarter_misses * 2 > static_cast<int>(set.points.size());
+  out.level = 0.5 * (low + high);
+  out.window_px = half;
   return out;
 }
 

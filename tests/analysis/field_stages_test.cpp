@@ -286,6 +286,46 @@ TEST_CASE("ProcessedEdgeStaysOnTheBladeWhereTheContrastChangesAlongIt") {
   }
 }
 
+TEST_CASE("BowOfACircularArcIsItsSagittaAndIgnoresOutliers") {
+  // Geometry of the circle: a chord of length L in a circle of radius R lies
+  // R - sqrt(R^2 - L^2 / 4) from the arc's middle (the sagitta). Points on such an arc, as
+  // offsets from the chord's line towards the outside, with every tenth point thrown 20 px
+  // away (a marker on the edge): the robust quadratic must give the sagitta.
+  const double radius = 200.0, chord = 100.0;
+  const double sagitta = radius - std::sqrt(radius * radius - chord * chord / 4);  // 6.35 px
+  std::vector<Point2d> pts;
+  for (int k = 0; k <= 60; ++k) {
+    const double t = -chord / 2 + chord * k / 60.0;
+    double offset = std::sqrt(radius * radius - t * t) - (radius - sagitta);  // 0 at the ends
+    if (k % 10 == 5) offset += 20.0;
+    pts.push_back({t + 300.0, offset});
+  }
+  const EdgeBow bow = FitBow(pts);
+  // A parabola through an arc of this opening (L / R = 0.5) differs from it by under 1 %.
+  CHECK(bow.sagitta_px == doctest::Approx(sagitta).epsilon(0.02));
+  CHECK(bow.points == 61 - 6);  // the six thrown points get no weight
+  CHECK(bow.spread_px < 0.1);
+
+  // A straight edge with noise: no bow beyond a few standard errors.
+  std::mt19937 rng(7);
+  std::normal_distribution<double> gauss(0.0, 0.5);
+  std::vector<Point2d> straight;
+  for (int k = 0; k < 80; ++k) straight.push_back({4.0 * k, 0.01 * k + gauss(rng)});
+  const EdgeBow flat = FitBow(straight);
+  CHECK(std::fabs(flat.sagitta_px) < 4 * flat.standard_error_px);
+  CHECK(flat.spread_px == doctest::Approx(0.5).epsilon(0.3));
+}
+
+TEST_CASE("OnlyTwoAgreeingCleanBowsMakeAnArc") {
+  const EdgeBow arc{6.0, 0.1, 0.2, 40};
+  CHECK(FollowsAnArc(arc, EdgeBow{5.0, 0.1, 0.3, 40}, 2.0));
+  CHECK_FALSE(FollowsAnArc(arc, EdgeBow{-5.0, 0.1, 0.3, 40}, 2.0));  // opposite ways
+  CHECK_FALSE(FollowsAnArc(arc, EdgeBow{2.5, 0.1, 0.3, 40}, 2.0));   // disagree (factor 2.4)
+  CHECK_FALSE(FollowsAnArc(arc, EdgeBow{5.0, 0.6, 2.0, 40}, 2.0));   // ragged (5 < 3 x 2)
+  CHECK_FALSE(FollowsAnArc(arc, EdgeBow{5.0, 0.1, 0.3, 40}, 7.0));   // under the minimum
+  CHECK_FALSE(FollowsAnArc(arc, EdgeBow{5.0, 0.1, 0.3, 4}, 2.0));    // too few points
+}
+
 TEST_CASE("QuarterMaximumLevelLiesOutsideTheHalfTransition") {
   // 21 CFR 1020.30(b): the x-ray field edge is where exposure is one fourth of the maximum.
   // Ramp 0 -> 1000 over 10 px centred at 0: 250 is reached 2.5 px outward of the centre.

@@ -259,9 +259,13 @@ TEST_CASE("DirectBeamStripBesideThePatientIsNotAField") {
   s.half = {1000, 1000, 1000, 1000};
   s.bands = {{30, 1000, 0.06}, {180, 230, 0.5}};
   s.noise = 0.01;
-  FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(true));
-  CHECK(m.open);
-  CHECK(VisibleCount(m) == 0);
+  for (bool processed : {false, true}) {
+    CAPTURE(processed);
+    s.processed = processed;
+    FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(!processed));
+    CHECK(m.open);
+    CHECK(VisibleCount(m) == 0);
+  }
 }
 
 TEST_CASE("AnatomyEdgeInsideACollimatedFieldLeavesTheBladesAlone") {
@@ -306,6 +310,29 @@ TEST_CASE("SmallFieldInsideAHeadClosesTheRectangleOnAllFourSides") {
                        std::pow(0.2, 1.0 / 6)});
   }
   CheckFourBladesOnRawImage(s);
+}
+
+TEST_CASE("RoundBrightRegionInAnOpenFieldIsNoCollimatedField") {
+  // No blade on the image (all four beyond it) and a round region much brighter than its
+  // surroundings (gas in the bowel over dense tissue): its outline is an arc, and a blade's
+  // shadow is straight, so no side may be reported on it.
+  Spec s;
+  s.half = {1000, 1000, 1000, 1000};
+  s.bands = {{0, 400, 0.1}};      // dense tissue over the whole image
+  s.floor_blocked = true;
+  s.noise = 0.005;
+  // Four nested ellipses of 2.5^(1/4) transmission each (the gas): radii 40-49 x 32-41 px,
+  // i.e. 20 x 16 mm at 0.5 mm pixels.
+  for (int k = 0; k < 4; ++k) {
+    s.blobs.push_back({250, 200, 40.0 + 3 * k, 32.0 + 3 * k, std::pow(2.5, 0.25)});
+  }
+  for (bool processed : {false, true}) {
+    CAPTURE(processed);
+    s.processed = processed;
+    FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(!processed));
+    CHECK(m.open);
+    CHECK(VisibleCount(m) == 0);
+  }
 }
 
 TEST_CASE("LeadMarkerOnAnEdgeDoesNotMoveIt") {
