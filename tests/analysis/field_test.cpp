@@ -33,6 +33,17 @@ void CheckFourBladesOnRawImage(const Spec& s) {
   CHECK(Hausdorff(m, s) < 1.0);
 }
 
+// No blade reported, the image open, both as a raw and as a processed image.
+void CheckOpenRawAndProcessed(Spec s) {
+  for (bool processed : {false, true}) {
+    CAPTURE(processed);
+    s.processed = processed;
+    FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(!processed));
+    CHECK(m.open);
+    CHECK(VisibleCount(m) == 0);
+  }
+}
+
 }  // namespace
 
 TEST_CASE("AxisAlignedFieldOnRawImageIsFoundToSubPixel") {
@@ -259,13 +270,7 @@ TEST_CASE("DirectBeamStripBesideThePatientIsNotAField") {
   s.half = {1000, 1000, 1000, 1000};
   s.bands = {{30, 1000, 0.06}, {180, 230, 0.5}};
   s.noise = 0.01;
-  for (bool processed : {false, true}) {
-    CAPTURE(processed);
-    s.processed = processed;
-    FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(!processed));
-    CHECK(m.open);
-    CHECK(VisibleCount(m) == 0);
-  }
+  CheckOpenRawAndProcessed(s);
 }
 
 TEST_CASE("AnatomyEdgeInsideACollimatedFieldLeavesTheBladesAlone") {
@@ -326,13 +331,7 @@ TEST_CASE("RoundBrightRegionInAnOpenFieldIsNoCollimatedField") {
   for (int k = 0; k < 4; ++k) {
     s.blobs.push_back({250, 200, 40.0 + 3 * k, 32.0 + 3 * k, std::pow(2.5, 0.25)});
   }
-  for (bool processed : {false, true}) {
-    CAPTURE(processed);
-    s.processed = processed;
-    FieldMeasurement m = DetectField(testimg::Render(s), testimg::Context(!processed));
-    CHECK(m.open);
-    CHECK(VisibleCount(m) == 0);
-  }
+  CheckOpenRawAndProcessed(s);
 }
 
 TEST_CASE("LeadMarkerOnAnEdgeDoesNotMoveIt") {
