@@ -268,11 +268,11 @@ struct Band {
   int lo = 0, hi = 0;  // [lo, hi) in frame pixels across the band
 };
 
-// Widest run of frame columns (vertical = true) or rows whose pixels inside [a_lo, a_hi)
-// along them are at the blocked level almost everywhere.
-std::optional<Band> WidestBlockedBand(const Frame& f, bool vertical, int c_lo, int c_hi, int a_lo,
-                                      int a_hi, double blocked_below) {
-  std::optional<Band> best;
+// Runs of frame columns (vertical = true) or rows whose pixels inside [a_lo, a_hi) along them
+// are at the blocked level almost everywhere, widest first (ties: the first found first).
+std::vector<Band> BlockedBands(const Frame& f, bool vertical, int c_lo, int c_hi, int a_lo,
+                               int a_hi, double blocked_below) {
+  std::vector<Band> bands;
   int run = -1;
   for (int c = c_lo; c <= c_hi; ++c) {
     bool blocked = false;
@@ -288,20 +288,22 @@ std::optional<Band> WidestBlockedBand(const Frame& f, bool vertical, int c_lo, i
     }
     if (blocked && run < 0) run = c;
     if (!blocked && run >= 0) {
-      if (!best || c - run > best->hi - best->lo) best = Band{run, c};
+      bands.push_back(Band{run, c});
       run = -1;
     }
   }
-  return best;
+  std::stable_sort(bands.begin(), bands.end(),
+                   [](const Band& x, const Band& y) { return x.hi - x.lo > y.hi - y.lo; });
+  return bands;
 }
 
 // Width of a blocked band between the two fields' edges at their 50 % points (the edge
 // definition): the band is widened while whole columns (vertical) or rows stay below `half`.
-// The core that WidestBlockedBand finds is narrower by a share of both penumbrae.
+// The core that BlockedBands finds is narrower by a share of both penumbrae.
 int GapWidthAtHalf(const Frame& f, bool vertical, Band band, int c_lo, int c_hi, int a_lo,
                    int a_hi, double half) {
   auto blocked_at = [&](int c) {
-    return WidestBlockedBand(f, vertical, c, c + 1, a_lo, a_hi, half).has_value();
+    return !BlockedBands(f, vertical, c, c + 1, a_lo, a_hi, half).empty();
   };
   while (band.lo - 1 > c_lo + 2 && blocked_at(band.lo - 1)) --band.lo;
   while (band.hi < c_hi - 2 && blocked_at(band.hi)) ++band.hi;
@@ -391,31 +393,36 @@ bool SplitAtBlockedBand(const Frame& frame, double range, double depth_px, doubl
   for (bool vertical : {true, false}) {
     const int c_lo = vertical ? u_lo : v_lo, c_hi = vertical ? u_hi : v_hi;
     const int a_lo = (vertical ? v_lo : u_lo) + 2, a_hi = (vertical ? v_hi : u_hi) - 2;
-    auto band = WidestBlockedBand(frame, vertical, c_lo + 2, c_hi - 2, a_lo, a_hi, below);
-    if (!band) continue;
+    // Every dark band in turn, widest first: a dense bone along the field can be wider than
+    // the gap between two exposures and fail the tests below while the gap passes them.
     const double half = blocked + 0.5 * (open - blocked);
-    if (GapWidthAtHalf(frame, vertical, *band, c_lo, c_hi, a_lo, a_hi, half) < min_band_px) continue;
-    const int first = band->lo - c_lo, second = c_hi - band->hi;
-    if (std::min(first, second) < 0.15 * (c_hi - c_lo)) continue;
-    // Keep the larger part; its new side lies at the band.
-    const bool keep_first = first >= second;
-    const Side cut = vertical ? (keep_first ? Side::kRight : Side::kLeft)
-                              : (keep_first ? Side::kBottom : Side::kTop);
-    const int position = keep_first ? band->lo : band->hi;
-    Span span{a_lo - 2, a_hi + 2};
-    SideEvidence ev = EvaluateSide(frame, cut, position, span, range, depth_px, true);
-    if (!(ev.step > 0.0) || ev.support < 0.6) continue;
-    // Between two exposures lies the same blocked plateau as beyond the blades, bounded by
-    // blade steps as strong as theirs; a spine, a long bone or a shield along the field is
-    // brighter than that plateau or bounded by weaker steps.
-    if (ev.step < 0.6 * (open - typical_outside)) continue;
-    if (BandMedian(frame, vertical, *band, a_lo, a_hi) > typical_outside + 0.25 * (open - typical_outside)) continue;
-    if (StraightEdgeShare(frame, vertical, *band, c_lo, c_hi, a_lo, a_hi, below) < 0.7) continue;
-    ev.blade = true;  // the half-plane beyond holds the other exposure, by construction
-    ev.why_not.clear();
-    rect->sides[static_cast<int>(cut)] = ev;
-    rect->split = true;
-    return true;
+    for (const Band& band : BlockedBands(frame, vertical, c_lo + 2, c_hi - 2, a_lo, a_hi, below)) {
+      if (GapWidthAtHalf(frame, vertical, band, c_lo, c_hi, a_lo, a_hi, half) < min_band_px) continue;
+      const int first = band.lo - c_lo, second = c_hi - band.hi;
+      if (std::min(first, second) < 0.15 * (c_hi - c_lo)) continue;
+      // Keep the larger part; its new side lies at the band.
+      const bool keep_first = first >= second;
+      const Side cut = vertical ? (keep_first ? Side::kRight : Side::kLeft)
+                                : (keep_first ? Side::kBottom : Side::kTop);
+      const int position = keep_first ? band.lo : band.hi;
+      Span span{a_lo - 2, a_hi + 2};
+      SideEvidence ev = EvaluateSide(frame, cut, position, span, range, depth_px, true);
+      if (!(ev.step > 0.0) || ev.support < 0.6) continue;
+      // Between two exposures lies the same blocked plateau as beyond the blades, bounded by
+      // blade steps as strong as theirs; a spine, a long bone or a shield along the field is
+      // brighter than that plateau or bounded by weaker steps.
+      if (ev.step < 0.6 * (open - typical_outside)) continue;
+      if (BandMedian(frame, vertical, band, a_lo, a_hi) >
+          typical_outside + 0.25 * (open - typical_outside)) {
+        continue;
+      }
+      if (StraightEdgeShare(frame, vertical, band, c_lo, c_hi, a_lo, a_hi, below) < 0.7) continue;
+      ev.blade = true;  // the half-plane beyond holds the other exposure, by construction
+      ev.why_not.clear();
+      rect->sides[static_cast<int>(cut)] = ev;
+      rect->split = true;
+      return true;
+    }
   }
   return false;
 }
