@@ -251,12 +251,12 @@ std::optional<double> SymmetricExposureCrossing(const std::vector<double>& profi
 // Slow, obvious reference: the gain scanned in tenths over the whole range.
 std::optional<double> SymmetricExposureCrossingReference(const std::vector<double>& profile,
                                                          double step);
-// Where a processed profile's edge point goes: its symmetric exposure point when one exists
-// within one penumbra width (at least 1 px) of the 10-90 % span centre `e` located, else the
-// span centre. Per profile, because the lopsidedness depends on the local contrast, which
-// changes along a blade (open field at one end, dense anatomy at the other).
-double SymmetricExposurePoint(const std::vector<double>& profile, double step,
-                              const EdgeCrossing& e);
+// A processed profile's edge point: its symmetric exposure point when one exists within one
+// penumbra width (at least 1 px) of the 10-90 % span centre of `e`; nullopt otherwise. Per
+// profile, because the lopsidedness depends on the local contrast, which changes along a
+// blade (open field at one end, dense anatomy at the other).
+std::optional<double> SymmetricExposurePoint(const std::vector<double>& profile, double step,
+                                             const EdgeCrossing& e);
 
 // Bilinear sample at continuous coordinates (pixel centres at +0.5); clamps at the border.
 double SampleBilinear(const Image& image, double x, double y);

@@ -200,12 +200,13 @@ std::optional<double> SymmetricExposureCrossingReference(const std::vector<doubl
   return probe.CentreAtZero(*turn, step);
 }
 
-double SymmetricExposurePoint(const std::vector<double>& p, double step, const EdgeCrossing& e) {
+std::optional<double> SymmetricExposurePoint(const std::vector<double>& p, double step,
+                                             const EdgeCrossing& e) {
   const auto symmetric = SymmetricExposureCrossing(p, step);
   if (!symmetric || std::fabs(*symmetric - e.span_centre) > std::max(1.0, e.penumbra)) {
-    return e.span_centre;
+    return std::nullopt;
   }
-  return *symmetric;
+  return symmetric;
 }
 
 Line RobustLineFit(const std::vector<Point2d>& pts, const Line& start, double scale_px,
@@ -500,14 +501,22 @@ RefinedSide RefineSide(const Image& image, const Line& coarse, Point2d a, Point2
   out.bow = BowAbout(set.points, line, a, b);
   if (!set.profiles.empty()) {
     // Processed image: every point moved to its own profile's symmetric exposure point, and the
-    // line fitted again. Per profile, as the lopsidedness depends on the local contrast.
+    // line fitted again. Per profile, as the lopsidedness depends on the local contrast. A
+    // profile without one keeps its span centre, biased towards the blocked side; mixed with
+    // the moved points such points tilt the line, so they are left out when at least half of
+    // the profiles have a symmetric point.
+    std::vector<Point2d> symmetric;
     for (size_t i = 0; i < set.points.size(); ++i) {
       const EdgeCrossing& e = set.crossings[i];
-      const double inward = SymmetricExposurePoint(set.profiles[i], 0.5, e) - e.span_centre;
+      const auto point = SymmetricExposurePoint(set.profiles[i], 0.5, e);
+      if (!point) continue;
+      const double inward = *point - e.span_centre;
       set.points[i].x -= inward * line.nx;
       set.points[i].y -= inward * line.ny;
+      symmetric.push_back(set.points[i]);
     }
-    line = RobustLineFit(set.points, line, 1.0, &out.inlier_share);
+    const bool enough = symmetric.size() >= 3 && 2 * symmetric.size() >= set.points.size();
+    line = RobustLineFit(enough ? symmetric : set.points, line, 1.0, &out.inlier_share);
   }
   out.ok = true;
   out.line = line;
