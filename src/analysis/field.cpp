@@ -253,7 +253,7 @@ bool EdgeFollowsAnArc(const Image& image, const WorkingImage& wk, const RefinedS
                       Point2d a, Point2d b, double pixel_mm) {
   const double length = std::hypot(b.x - a.x, b.y - a.y);
   const double min_sagitta_px = std::max(kArcMinSagittaMm / pixel_mm, kArcMinBowShare * length);
-  if (!FollowsAnArc(r.bow, r.bow, min_sagitta_px)) return false;
+  if (!BowsCleanly(r.bow, min_sagitta_px)) return false;
   // Wide enough for the middle of an arc whose ends lie on the fitted line.
   const double half = r.window_px + 0.25 * length;
   const EdgeBow traced = TraceEdgeBow(image, r.line, a, b, half, r.level, &wk.valid, wk.factor);

@@ -268,24 +268,27 @@ struct Band {
   int lo = 0, hi = 0;  // [lo, hi) in frame pixels across the band
 };
 
-// Runs of frame columns (vertical = true) or rows whose pixels inside [a_lo, a_hi) along them
-// are at the blocked level almost everywhere, widest first (ties: the first found first).
+// Whether frame column (vertical = true) or row c is at the blocked level almost everywhere
+// inside [a_lo, a_hi) along it.
+bool LineBlocked(const Frame& f, bool vertical, int c, int a_lo, int a_hi, double blocked_below) {
+  int n = 0, dark = 0;
+  for (int a = a_lo; a < a_hi; ++a) {
+    const int row = vertical ? a : c, col = vertical ? c : a;
+    if (row < 0 || col < 0 || row >= f.value.rows || col >= f.value.cols || !f.valid(row, col)) continue;
+    ++n;
+    dark += f.value(row, col) < blocked_below ? 1 : 0;
+  }
+  return n >= 3 && dark >= 0.9 * n;
+}
+
+// Runs of blocked columns or rows (LineBlocked) in [c_lo, c_hi), widest first (ties: the first
+// found first).
 std::vector<Band> BlockedBands(const Frame& f, bool vertical, int c_lo, int c_hi, int a_lo,
                                int a_hi, double blocked_below) {
   std::vector<Band> bands;
   int run = -1;
   for (int c = c_lo; c <= c_hi; ++c) {
-    bool blocked = false;
-    if (c < c_hi) {
-      int n = 0, dark = 0;
-      for (int a = a_lo; a < a_hi; ++a) {
-        const int row = vertical ? a : c, col = vertical ? c : a;
-        if (row < 0 || col < 0 || row >= f.value.rows || col >= f.value.cols || !f.valid(row, col)) continue;
-        ++n;
-        dark += f.value(row, col) < blocked_below ? 1 : 0;
-      }
-      blocked = n >= 3 && dark >= 0.9 * n;
-    }
+    const bool blocked = c < c_hi && LineBlocked(f, vertical, c, a_lo, a_hi, blocked_below);
     if (blocked && run < 0) run = c;
     if (!blocked && run >= 0) {
       bands.push_back(Band{run, c});
@@ -302,9 +305,7 @@ std::vector<Band> BlockedBands(const Frame& f, bool vertical, int c_lo, int c_hi
 // The core that BlockedBands finds is narrower by a share of both penumbrae.
 int GapWidthAtHalf(const Frame& f, bool vertical, Band band, int c_lo, int c_hi, int a_lo,
                    int a_hi, double half) {
-  auto blocked_at = [&](int c) {
-    return !BlockedBands(f, vertical, c, c + 1, a_lo, a_hi, half).empty();
-  };
+  auto blocked_at = [&](int c) { return LineBlocked(f, vertical, c, a_lo, a_hi, half); };
   while (band.lo - 1 > c_lo + 2 && blocked_at(band.lo - 1)) --band.lo;
   while (band.hi < c_hi - 2 && blocked_at(band.hi)) ++band.hi;
   return band.hi - band.lo;

@@ -319,6 +319,9 @@ constexpr double kArcCleanness = 3.0;
 constexpr double kArcAgreement = 1.5;
 // Confidence of a side that follows an arc beside true blades (at most).
 constexpr double kArcSideConfidence = 0.5;
+// One tracing's half of that test: at least five points, a sagitta of at least
+// `min_sagitta_px` and of at least kArcCleanness times the residual spread.
+bool BowsCleanly(const EdgeBow& bow, double min_sagitta_px);
 bool FollowsAnArc(const EdgeBow& points, const EdgeBow& traced, double min_sagitta_px);
 
 // ---- Polygon and checks (field_checks.cpp) ----------------------------------------------

@@ -443,13 +443,14 @@ EdgeBow TraceEdgeBow(const Image& image, const Line& line, Point2d a, Point2d b,
   return FitBow(TraceLevel(image, line, a, b, half, level, valid, factor));
 }
 
+bool BowsCleanly(const EdgeBow& bow, double min_sagitta_px) {
+  const double sagitta = std::fabs(bow.sagitta_px);
+  return bow.points >= 5 && sagitta >= min_sagitta_px && sagitta >= kArcCleanness * bow.spread_px;
+}
+
 bool FollowsAnArc(const EdgeBow& points, const EdgeBow& traced, double min_sagitta_px) {
-  if (points.points < 5 || traced.points < 5) return false;
+  if (!BowsCleanly(points, min_sagitta_px) || !BowsCleanly(traced, min_sagitta_px)) return false;
   if (points.sagitta_px * traced.sagitta_px <= 0.0) return false;
-  for (const EdgeBow& bow : {points, traced}) {
-    const double sagitta = std::fabs(bow.sagitta_px);
-    if (sagitta < min_sagitta_px || sagitta < kArcCleanness * bow.spread_px) return false;
-  }
   const double ratio = std::fabs(points.sagitta_px / traced.sagitta_px);
   return ratio <= kArcAgreement && ratio >= 1.0 / kArcAgreement;
 }
