@@ -387,6 +387,13 @@ Candidate Evaluate(const Working& w, const cv::Mat& mask, double pixel_noise, do
 }
 
 constexpr double kMinStep = 4.5;  // attenuation step at the skin line, in noise units
+// Pieces of direct exposure differ by the heel effect and shading: a tenth of the field's range.
+constexpr double kSameLevel = 0.1;
+// Direct exposure found only by splitting a class that held tissue too must be as flat as the
+// pixel noise and bounded by a step more than twice kMinStep: the split of a smooth thickness
+// profile is neither.
+constexpr double kFlatNoise = 1.5;
+constexpr double kClearStep = 10.0;
 // Median attenuation of tissue split off the direct exposure, in noise units: the upper half
 // of the open field's own noise lies about 1 sigma above its lower half.
 constexpr double kMinRemoved = 2.0;
@@ -417,6 +424,28 @@ double LocalStep(const Working& w, Candidate& c, double pixel_noise, double work
   cv::Mat ring = far & ~near & w.field;
   if (cv::countNonZero(ring) < 10 || !(noise > 0.0)) return 0.0;
   return (Median(Values(residual, ring)) - Median(in)) / noise;
+}
+
+// The pieces of `mask` as light as its lightest piece: direct exposure lies at one level (up
+// to the heel effect and processing), wherever it appears beside the patient. A split of the
+// attenuation left by a plane can also take in a strip of thick tissue far from where the
+// plane was fitted; that strip is far darker in the image itself.
+cv::Mat BrightestPieces(const Working& w, const cv::Mat& mask, double log_range) {
+  cv::Mat labels, stats, centroids;
+  int n = cv::connectedComponentsWithStats(mask, labels, stats, centroids, 8, CV_32S);
+  if (n <= 2) return mask;
+  std::vector<double> level(n, -1e300);
+  double lightest = -1e300;
+  for (int i = 1; i < n; ++i) {
+    if (stats.at<int>(i, cv::CC_STAT_AREA) < 20) continue;
+    level[i] = Median(Values(w.log, labels == i));
+    lightest = std::max(lightest, level[i]);
+  }
+  cv::Mat out = cv::Mat::zeros(mask.size(), CV_8U);
+  for (int i = 1; i < n; ++i) {
+    if (level[i] >= lightest - kSameLevel * log_range) out.setTo(255, labels == i);
+  }
+  return out;
 }
 
 // Direct exposure: not a sliver, with a clear step at its border, beside a patient, and
@@ -506,6 +535,8 @@ Segmentation Segment(const Working& w, const std::array<double, 2>& spacing, dou
   int field_px = cv::countNonZero(w.field);
   if (field_px < 20) return s;
   const double pixel_noise = PixelNoise(w);
+  std::vector<float> field_values = Values(w.log, w.field);
+  const double log_range = Quantile(field_values, 0.99) - Quantile(field_values, 0.01);
   // Two candidates for the direct exposure: the bright class of a two-class split of the
   // values, and the least attenuated class of a three-class split of the attenuation left by
   // the first one's plane (which separates direct exposure from thin soft tissue where bone or
@@ -519,23 +550,35 @@ Segmentation Segment(const Working& w, const std::array<double, 2>& spacing, dou
   const Candidate* chosen = Plausible(three, field_px) ? &three
                             : Plausible(two, field_px) ? &two : nullptr;
   s.step = std::max(three.step, two.step);
-  s.direct_found = chosen != nullptr;
   // Thin soft tissue (a foot's or a hand's outline on a processed image) can be so faint that
   // it falls into the least attenuated class with the direct exposure. Direct exposure is the
   // least attenuated region bounded by a step, so the split is repeated inside the chosen
   // candidate while its lighter part is itself plausible direct exposure. A split of smooth
   // shading alone fails the step test: its border is a gentle slope, not a step.
+  // When neither candidate is plausible, the same split is tried from the smaller one, up to
+  // four times: an open strip along one blade beside a thick limb shares its class with the
+  // limb's thin flank, whose spread hides the skin line. Only pieces as light as the lightest
+  // are kept at each split, and the result must be flat and clearly stepped (kFlatNoise,
+  // kClearStep).
   Candidate inner;
-  for (int round = 0; chosen && round < 2; ++round) {
-    std::vector<float> values = Values(chosen->residual, chosen->mask);
-    cv::Mat sub = (chosen->residual < OtsuThreshold(values)) & chosen->mask;
+  const Candidate* from = chosen ? chosen
+                          : (three.area > 0 && three.area < two.area ? &three : &two);
+  for (int round = 0; round < (chosen ? 2 : 4); ++round) {
+    std::vector<float> values = Values(from->residual, from->mask);
+    cv::Mat sub = (from->residual < OtsuThreshold(values)) & from->mask;
     cv::morphologyEx(sub, sub, cv::MORPH_OPEN, Disk(1));  // a split of noise is speckle
+    if (!chosen) sub = BrightestPieces(w, sub, log_range);
     Candidate next = Evaluate(w, sub, pixel_noise, working_mm);
-    next.step = LocalStep(w, next, pixel_noise, working_mm, chosen->mask & ~sub);
-    if (next.area >= chosen->area || !Plausible(next, field_px)) break;
+    next.step = LocalStep(w, next, pixel_noise, working_mm, from->mask & ~sub);
+    if (next.area == 0 || next.area >= from->area) break;
+    const bool direct = Plausible(next, field_px) &&
+                        (chosen || (next.noise <= kFlatNoise * pixel_noise && next.step >= kClearStep));
+    if (chosen && !direct) break;
     inner = std::move(next);
-    chosen = &inner;
+    from = &inner;
+    if (direct) chosen = &inner;
   }
+  s.direct_found = chosen != nullptr;
   const Candidate& c = chosen ? *chosen : two;
   s.surface = c.surface;
   s.residual = c.residual;

@@ -375,3 +375,28 @@ TEST_CASE("ForearmUnderAProcessingHaloAtTheBladeStillContinuesThroughIt") {
   CHECK(CutOffSides(a.at_blade_sides, a.ends, a.continuing_end,
                     RuleThrough(Continuation::kOneEnd)).empty());
 }
+
+TEST_CASE("NarrowOpenStripBesideALimbFillingMostOfTheFieldIsFound") {
+  // Synthetic ground truth: a thick limb (log attenuation 1.5 at its axis, a dense bone along
+  // it) fills the field but for a 20 mm strip of open field along the right blade, as on a
+  // knee or an ankle collimated tightly on three sides. Every split of the whole field puts the
+  // limb's thin flank with the strip, and the plane of such a class, carried across the field,
+  // makes a strip of thick tissue along the left blade look as light as the open strip. The
+  // box must end at the limb's outline (u = 110 px, 20 mm inside the right blade), and the
+  // right side is no cut-off. Common practice, no single source: direct exposure is one flat
+  // level bounded by the skin line.
+  Scene s;
+  s.ax = -60;
+  s.a = 170;
+  s.b = 400;
+  s.mu = 1.5;
+  s.extra = {{-60, 0, 30, 400, 2.0}};
+  Image img = Render(s);
+  AnatomyMeasurement a = Find(s, img);
+  REQUIRE(a.found);
+  auto c = RotatedBox(-s.hw, s.ax + s.a, -s.hh, s.hh, s.rot);
+  Polygon truth;
+  for (const Point2d& q : c) truth.push_back({q.x + s.cx, q.y + s.cy});
+  CHECK(BoxErrorMm(a, truth) < 2.0);
+  CHECK(!Clipped(a, Side::kRight));
+}
