@@ -44,6 +44,11 @@ Span SpanFor(const Rectangle& r, Side s, const Frame& f) {
 }
 
 // The opposite side must leave a field of at least a few working pixels.
+// Corner corroboration (CornerCorroborated), working pixels: a perpendicular step ends on a
+// side within kCornerTolerancePx and may run on past it by at most kCornerRunOnPx.
+constexpr int kCornerTolerancePx = 2;
+constexpr int kCornerRunOnPx = 6;
+
 bool Compatible(const Rectangle& r, Side s, double position) {
   const auto& other = r.sides[static_cast<int>(Opposite(s))];
   if (!other) return true;
@@ -115,23 +120,29 @@ void MeasureWithinNeighbours(FrameQueries& q, Rectangle& r) {
 
 // The blade beyond a small field over dense anatomy may shadow open air beside the patient,
 // whose leakage and off-focus glow can be brighter than half-way up the step: the bright-
-// beyond test then rejects a true blade. A step that closes the rectangle exactly where both
+// beyond test then rejects a true blade. A step that closes the rectangle where the
 // perpendicular blades' own steps end is kept all the same: anatomy does not end two straight
-// edges on a third one at right angles.
+// edges on a third one at right angles. Both perpendicular steps must reach the side and at
+// least one must end on it: beyond a small field the other one may run on for a few
+// millimetres along a bright outline just past the corner (an edge-enhancement halo around a
+// skull or a knee), which no anatomy edge explains either.
 bool CornerCorroborated(FrameQueries& q, const Rectangle& r, Side s, int position) {
   const bool vertical = Vertical(s);
   const Side lo_side = vertical ? Side::kTop : Side::kLeft;
   const Side hi_side = vertical ? Side::kBottom : Side::kRight;
   const int along = vertical ? q.frame().value.cols : q.frame().value.rows;
   const bool low = s == Side::kLeft || s == Side::kTop;
+  int ending = 0;
   for (Side perp : {lo_side, hi_side}) {
     const auto& ev = r.sides[static_cast<int>(perp)];
     if (!ev) return false;
     const Span run = q.StepSpanAt(perp, static_cast<int>(ev->position), Span{0, along});
     const int end = low ? run.lo : run.hi;
-    if (std::abs(end - position) > 2) return false;
+    const int past = low ? position - end : end - position;  // how far the run goes beyond
+    if (past < -kCornerTolerancePx || past > kCornerRunOnPx) return false;
+    if (std::abs(past) <= kCornerTolerancePx) ++ending;
   }
-  return true;
+  return ending >= 1;
 }
 
 // `provisional`: keep it now and let the end of the search decide (when the neighbours that

@@ -345,6 +345,37 @@ TEST_CASE("SmallFieldInsideAHeadClosesTheRectangleOnAllFourSides") {
   CheckFourBladesOnRawImage(s);
 }
 
+TEST_CASE("SmallFieldClosesWhenOneStepRunsOnPastACornerAlongABrightHalo") {
+  // The small field inside a head of the test above, and just beyond its right blade a bright
+  // patch 9 mm wide and 12 mm high, as bright as the field (the edge-enhancement halo along an
+  // outline on a processed image can be), whose lower end is cut by the bottom blade's shadow.
+  // The right side's outside then looks bright, so the side must be closed by its neighbours,
+  // and the bottom blade's step runs on for 9 mm past the corner along the patch. The top step
+  // still ends on the right side, so the rectangle closes. Synthetic ground truth.
+  Spec s;
+  s.half = {40, 40, 30, 30};
+  s.floor_blocked = true;
+  s.noise = 0.005;
+  for (int k = 0; k < 6; ++k) {
+    const double grow = 6.0 + 4.0 * k;
+    s.blobs.push_back({s.cx, s.cy, 40 * std::sqrt(2.0) + grow, 30 * std::sqrt(2.0) + grow,
+                       std::pow(0.2, 1.0 / 6)});
+  }
+  Image img = testimg::Render(s);
+  const int right = static_cast<int>(s.cx + s.half[1]), bottom = static_cast<int>(s.cy + s.half[3]);
+  for (int y = bottom - 24; y < bottom + 4; ++y) {
+    // Below the bottom line the blade's penumbra takes the patch down as it takes the field.
+    const double a = testimg::Ramp(bottom - (y + 0.5), s.penumbra);
+    for (int x = right + 3; x < right + 21; ++x) {
+      const float field_level = img.at(x - 45, y);  // same row, inside the field
+      img.at(x, y) = static_cast<float>(std::max<double>(img.at(x, y), a * field_level));
+    }
+  }
+  FieldMeasurement m = DetectField(img, testimg::Context(true));
+  CHECK(VisibleCount(m) == 4);
+  CHECK(Hausdorff(m, s) < 1.0);
+}
+
 TEST_CASE("RoundBrightRegionInAnOpenFieldIsNoCollimatedField") {
   // No blade on the image (all four beyond it) and a round region much brighter than its
   // surroundings (gas in the bowel over dense tissue): its outline is an arc, and a blade's
