@@ -327,10 +327,10 @@ TEST_CASE("BladeShadowingAirBesideDenseAnatomyClosesTheRectangle") {
   CheckFourBladesOnRawImage(s);
 }
 
-TEST_CASE("SmallFieldInsideAHeadClosesTheRectangleOnAllFourSides") {
-  // The same physics all round: a small field inside a rounded patient outline with air
-  // beyond it on every side, so every blade's outside looks bright and none can be
-  // corroborated by neighbours already accepted. All four close on each other.
+namespace {
+
+// A small field inside a rounded patient outline with air beyond it on every side.
+Spec SmallFieldInsideAHead() {
   Spec s;
   s.half = {40, 40, 30, 30};      // 40 x 30 mm at 0.5 mm pixels, centred
   s.floor_blocked = true;
@@ -342,7 +342,16 @@ TEST_CASE("SmallFieldInsideAHeadClosesTheRectangleOnAllFourSides") {
     s.blobs.push_back({s.cx, s.cy, 40 * std::sqrt(2.0) + grow, 30 * std::sqrt(2.0) + grow,
                        std::pow(0.2, 1.0 / 6)});
   }
-  CheckFourBladesOnRawImage(s);
+  return s;
+}
+
+}  // namespace
+
+TEST_CASE("SmallFieldInsideAHeadClosesTheRectangleOnAllFourSides") {
+  // The same physics all round: a small field inside a rounded patient outline with air
+  // beyond it on every side, so every blade's outside looks bright and none can be
+  // corroborated by neighbours already accepted. All four close on each other.
+  CheckFourBladesOnRawImage(SmallFieldInsideAHead());
 }
 
 TEST_CASE("SmallFieldClosesWhenOneStepRunsOnPastACornerAlongABrightHalo") {
@@ -352,15 +361,7 @@ TEST_CASE("SmallFieldClosesWhenOneStepRunsOnPastACornerAlongABrightHalo") {
   // The right side's outside then looks bright, so the side must be closed by its neighbours,
   // and the bottom blade's step runs on for 9 mm past the corner along the patch. The top step
   // still ends on the right side, so the rectangle closes. Synthetic ground truth.
-  Spec s;
-  s.half = {40, 40, 30, 30};
-  s.floor_blocked = true;
-  s.noise = 0.005;
-  for (int k = 0; k < 6; ++k) {
-    const double grow = 6.0 + 4.0 * k;
-    s.blobs.push_back({s.cx, s.cy, 40 * std::sqrt(2.0) + grow, 30 * std::sqrt(2.0) + grow,
-                       std::pow(0.2, 1.0 / 6)});
-  }
+  const Spec s = SmallFieldInsideAHead();
   Image img = testimg::Render(s);
   const int right = static_cast<int>(s.cx + s.half[1]), bottom = static_cast<int>(s.cy + s.half[3]);
   for (int y = bottom - 24; y < bottom + 4; ++y) {
