@@ -571,8 +571,9 @@ Segmentation Segment(const Working& w, const std::array<double, 2>& spacing, dou
     Candidate next = Evaluate(w, sub, pixel_noise, working_mm);
     next.step = LocalStep(w, next, pixel_noise, working_mm, from->mask & ~sub);
     if (next.area == 0 || next.area >= from->area) break;
-    const bool direct = Plausible(next, field_px) &&
-                        (chosen || (next.noise <= kFlatNoise * pixel_noise && next.step >= kClearStep));
+    const bool flat_and_stepped =
+        next.noise <= kFlatNoise * pixel_noise && next.step >= kClearStep;
+    const bool direct = Plausible(next, field_px) && (chosen || flat_and_stepped);
     if (chosen && !direct) break;
     inner = std::move(next);
     from = &inner;

@@ -43,12 +43,12 @@ Span SpanFor(const Rectangle& r, Side s, const Frame& f) {
   return span;
 }
 
-// The opposite side must leave a field of at least a few working pixels.
 // Corner corroboration (CornerCorroborated), working pixels: a perpendicular step ends on a
 // side within kCornerTolerancePx and may run on past it by at most kCornerRunOnPx.
 constexpr int kCornerTolerancePx = 2;
 constexpr int kCornerRunOnPx = 6;
 
+// The opposite side must leave a field of at least a few working pixels.
 bool Compatible(const Rectangle& r, Side s, double position) {
   const auto& other = r.sides[static_cast<int>(Opposite(s))];
   if (!other) return true;
