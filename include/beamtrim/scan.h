@@ -125,7 +125,8 @@ std::string ReasonKey(const std::string& file, const std::string& reason);
 // Makes the C allocator keep freed blocks of up to 32 MiB for reuse instead of returning
 // them to the system after each image, so every image's pixel buffers reuse memory already
 // mapped rather than faulting fresh pages in (a large share of the measuring time
-// otherwise; docs/performance.md). Process-wide (glibc mallopt; nothing elsewhere);
+// otherwise; docs/performance.md). Process-wide (glibc mallopt; nothing elsewhere, nor
+// under AddressSanitizer, whose allocator replaces glibc's);
 // idempotent; the scan calls it, and so should any pass that is compared with a scan.
 void TuneAllocatorForBatch();
 
